@@ -1,0 +1,88 @@
+//! The command line: raw arguments (clap) are validated once into library options, the
+//! library does the work, and errors map to documented exit codes.
+//!
+//! Exit codes: 0 success; 1 the command ran but some input was unreadable or partly skipped;
+//! 2 usage error; 3 input error (nothing could be read).
+
+mod args;
+
+use anyhow::Result;
+use args::{Cli, Command, InspectArgs, OutputFormat};
+use clap::Parser;
+use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
+use std::io::Write;
+
+/// Success.
+pub const EXIT_OK: i32 = 0;
+/// Ran, but some input was partly skipped.
+pub const EXIT_PARTIAL: i32 = 1;
+/// Usage error.
+pub const EXIT_USAGE: i32 = 2;
+/// Input error: nothing could be read.
+pub const EXIT_INPUT: i32 = 3;
+
+/// Parses the command line, runs it and returns the process exit code.
+pub fn main() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let code = if e.use_stderr() { EXIT_USAGE } else { EXIT_OK };
+            let _ = e.print();
+            return code;
+        }
+    };
+    match run(cli) {
+        Ok(code) => code,
+        Err(error) => {
+            let code = exit_code_of(&error);
+            eprintln!("collatio: error: {error}");
+            for cause in error.chain().skip(1) {
+                eprintln!("  caused by: {cause}");
+            }
+            code
+        }
+    }
+}
+
+fn exit_code_of(error: &anyhow::Error) -> i32 {
+    match error.downcast_ref::<IngestError>() {
+        Some(IngestError {
+            problem: Problem::Selection(_),
+            ..
+        }) => EXIT_USAGE,
+        Some(_) => EXIT_INPUT,
+        None if error.downcast_ref::<args::UsageError>().is_some() => EXIT_USAGE,
+        None => EXIT_INPUT,
+    }
+}
+
+fn run(cli: Cli) -> Result<i32> {
+    match cli.command {
+        Command::Inspect(args) => inspect(args),
+    }
+}
+
+fn inspect(args: InspectArgs) -> Result<i32> {
+    let options: ReadOptions = args.read_options()?;
+    let piece = read_file(&args.file, &options)?;
+    let text = match args.format {
+        OutputFormat::Text => collatio::report::inspect::render_text(&piece),
+        OutputFormat::Json => {
+            let mut json =
+                serde_json::to_string_pretty(&collatio::report::inspect::record(&piece))?;
+            json.push('\n');
+            json
+        }
+    };
+    let mut stdout = std::io::stdout().lock();
+    if let Err(e) = stdout.write_all(text.as_bytes()) {
+        if e.kind() != std::io::ErrorKind::BrokenPipe {
+            return Err(e.into());
+        }
+    }
+    Ok(if piece.warnings.is_empty() {
+        EXIT_OK
+    } else {
+        EXIT_PARTIAL
+    })
+}

@@ -1,0 +1,169 @@
+//! Reading files into the common timeline.
+//!
+//! In: a path (or bytes) and [`ReadOptions`]. Out: a [`Piece`] with every part, the bar grid,
+//! the tempo map and the selected melody, or an [`IngestError`] naming the file and the
+//! problem. The format is detected from the content ([`detect`]), never from the extension
+//! alone.
+//!
+//! ```no_run
+//! use collatio::ingest::{read_file, ReadOptions};
+//! let piece = read_file("song.musicxml".as_ref(), &ReadOptions::default())?;
+//! println!("{} notes in the melody", piece.melody.len());
+//! # Ok::<(), collatio::ingest::IngestError>(())
+//! ```
+
+pub mod detect;
+mod error;
+mod finish;
+pub mod midi;
+pub mod musicxml;
+mod select;
+
+pub use error::{IngestError, Problem};
+pub use select::{BarRange, MelodyChoice};
+
+use crate::timeline::{Format, Piece, Provenance};
+use sha2::{Digest, Sha256};
+use std::io::Read;
+use std::path::Path;
+
+/// Limits on what a file may declare or contain; each has a command-line flag to raise it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+pub struct Limits {
+    /// Largest input file in bytes. Default 256 MiB.
+    pub max_file_bytes: u64,
+    /// Largest total decompressed size of the entries read from an `.mxl` container, in bytes.
+    /// Default 256 MiB.
+    pub max_decompressed_bytes: u64,
+    /// Most entries an `.mxl` container may list. Default 10,000.
+    pub max_archive_entries: u64,
+    /// Most notes in one file, all parts together. Default 2,000,000.
+    pub max_notes: u64,
+    /// Most bars in one file (after unfolding repeats). Default 100,000.
+    pub max_bars: u64,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits {
+            max_file_bytes: 256 << 20,
+            max_decompressed_bytes: 256 << 20,
+            max_archive_entries: 10_000,
+            max_notes: 2_000_000,
+            max_bars: 100_000,
+        }
+    }
+}
+
+/// How to read a file.
+#[derive(Debug, Clone, Default)]
+pub struct ReadOptions {
+    /// Size and count limits.
+    pub limits: Limits,
+    /// Which line to take as the melody.
+    pub choice: MelodyChoice,
+    /// Unfold repeats and endings into performance order (MusicXML). Default: written order.
+    pub unfold_repeats: bool,
+}
+
+/// Reads a file from disk into the timeline.
+pub fn read_file(path: &Path, options: &ReadOptions) -> Result<Piece, IngestError> {
+    let bytes = read_limited(path, options.limits.max_file_bytes).map_err(|p| p.at(path))?;
+    read_bytes(path, &bytes, options)
+}
+
+/// Reads bytes already in memory; `path` is used for provenance and messages.
+pub fn read_bytes(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Piece, IngestError> {
+    read_inner(path, bytes, options).map_err(|p| p.at(path))
+}
+
+fn read_inner(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Piece, Problem> {
+    let limits = &options.limits;
+    if bytes.len() as u64 > limits.max_file_bytes {
+        return Err(Problem::Limit {
+            what: "file size in bytes",
+            value: bytes.len() as u64,
+            limit: limits.max_file_bytes,
+            flag: "--max-file-mb",
+        });
+    }
+    let format = detect::detect(bytes)?;
+    let raw = match format {
+        Format::Midi => midi::read(bytes, limits)?,
+        Format::MusicXml => musicxml::read_xml(bytes, limits, options.unfold_repeats)?,
+        Format::Mxl => musicxml::read_mxl(bytes, limits, options.unfold_repeats)?,
+    };
+    let provenance = Provenance {
+        path: path.display().to_string(),
+        bytes: bytes.len() as u64,
+        sha256: sha256_hex(bytes),
+        format,
+        detail: raw.detail.clone(),
+    };
+    let piece = finish::finish(raw, provenance, options.unfold_repeats)?;
+    select::select_melody(piece, &options.choice)
+}
+
+/// Reads at most `limit` bytes, failing with a limit error beyond it.
+fn read_limited(path: &Path, limit: u64) -> Result<Vec<u8>, Problem> {
+    let file = std::fs::File::open(path)?;
+    let declared = file.metadata()?.len();
+    if declared > limit {
+        return Err(Problem::Limit {
+            what: "file size in bytes",
+            value: declared,
+            limit,
+            flag: "--max-file-mb",
+        });
+    }
+    let mut bytes = Vec::with_capacity(declared as usize);
+    file.take(limit + 1).read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > limit {
+        return Err(Problem::Limit {
+            what: "file size in bytes",
+            value: bytes.len() as u64,
+            limit,
+            flag: "--max-file-mb",
+        });
+    }
+    Ok(bytes)
+}
+
+/// SHA-256 of bytes as lower-case hex.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// What a format reader hands to the finishing step: parts with notes in ticks, the bar grid
+/// and the maps. Derived fields (beats, seconds, bar of each note) are filled in by `finish`.
+#[derive(Debug, Default)]
+pub(crate) struct RawPiece {
+    pub detail: String,
+    pub title: Option<String>,
+    pub composer: Option<String>,
+    pub resolution: u32,
+    pub parts: Vec<crate::timeline::Part>,
+    pub bars: Vec<RawBar>,
+    pub tempo: Vec<crate::timeline::TempoChange>,
+    pub time_signatures: Vec<crate::timeline::TimeSignature>,
+    pub key_signatures: Vec<crate::timeline::KeySignature>,
+    /// (ticks, part index, text)
+    pub chord_symbols: Vec<(i64, usize, String)>,
+    /// (ticks, part index, pitch, kind)
+    pub ornaments: Vec<(i64, usize, f64, String)>,
+    pub warnings: Vec<String>,
+}
+
+/// A bar as a reader finds it.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct RawBar {
+    pub label: String,
+    pub start_ticks: i64,
+    pub length_ticks: i64,
+    pub time_signature: (u32, u32),
+    pub pickup: bool,
+    pub implicit: bool,
+}

@@ -1,0 +1,3 @@
+//! Rendering results: the human listing and JSON record of `inspect`.
+
+pub mod inspect;

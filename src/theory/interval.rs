@@ -1,0 +1,120 @@
+//! Interval names and sizes, simple and compound.
+
+/// Interval quality.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Quality {
+    /// Perfect (unison, fourth, fifth, octave).
+    Perfect,
+    /// Major (second, third, sixth, seventh).
+    Major,
+    /// Minor.
+    Minor,
+    /// Augmented (one semitone more than perfect or major).
+    Augmented,
+    /// Diminished (one semitone less than perfect or minor).
+    Diminished,
+}
+
+/// A diatonic interval: quality and number (1 = unison, 8 = octave, 9 = ninth, …).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Interval {
+    /// Quality.
+    pub quality: Quality,
+    /// Diatonic number, 1-based (unison 1, second 2, …, octave 8, ninth 9, …).
+    pub number: u32,
+}
+
+impl Interval {
+    /// Whether the simple form of this number takes perfect quality (1, 4, 5).
+    fn is_perfect_class(number: u32) -> bool {
+        matches!((number - 1) % 7, 0 | 3 | 4)
+    }
+
+    /// Builds an interval, rejecting impossible combinations (a major fifth, a perfect third).
+    pub fn new(quality: Quality, number: u32) -> Option<Interval> {
+        if number == 0 {
+            return None;
+        }
+        let perfect_class = Self::is_perfect_class(number);
+        let ok = match quality {
+            Quality::Perfect => perfect_class,
+            Quality::Major | Quality::Minor => !perfect_class,
+            Quality::Augmented => true,
+            Quality::Diminished => number != 1,
+        };
+        ok.then_some(Interval { quality, number })
+    }
+
+    /// Parses the usual abbreviations: `P5`, `M3`, `m6`, `A4`, `d5`, `P8`, `M9`, `P15`.
+    pub fn parse(text: &str) -> Option<Interval> {
+        let text = text.trim();
+        let mut chars = text.chars();
+        let quality = match chars.next()? {
+            'P' => Quality::Perfect,
+            'M' => Quality::Major,
+            'm' => Quality::Minor,
+            'A' => Quality::Augmented,
+            'd' => Quality::Diminished,
+            _ => return None,
+        };
+        let number: u32 = chars.as_str().parse().ok()?;
+        Interval::new(quality, number)
+    }
+
+    /// Size in semitones: the major or perfect size of the simple interval, plus 12 per
+    /// octave of compounding, adjusted by quality.
+    pub fn semitones(&self) -> i32 {
+        const MAJOR_OR_PERFECT: [i32; 7] = [0, 2, 4, 5, 7, 9, 11];
+        let steps = self.number - 1;
+        let octaves = (steps / 7) as i32;
+        let simple = (steps % 7) as usize;
+        let base = MAJOR_OR_PERFECT[simple] + 12 * octaves;
+        let perfect_class = Self::is_perfect_class(self.number);
+        base + match (self.quality, perfect_class) {
+            (Quality::Perfect, _) | (Quality::Major, _) => 0,
+            (Quality::Minor, _) => -1,
+            (Quality::Augmented, _) => 1,
+            (Quality::Diminished, true) => -1,
+            (Quality::Diminished, false) => -2,
+        }
+    }
+
+    /// The abbreviation, e.g. `m3`.
+    pub fn abbreviation(&self) -> String {
+        let q = match self.quality {
+            Quality::Perfect => 'P',
+            Quality::Major => 'M',
+            Quality::Minor => 'm',
+            Quality::Augmented => 'A',
+            Quality::Diminished => 'd',
+        };
+        format!("{q}{}", self.number)
+    }
+
+    /// The plainest name for a size in semitones (≥ 0): P1 m2 M2 m3 M3 P4 A4 P5 m6 M6 m7 M7,
+    /// compounding upwards by octaves (13 → m9). The tritone is named A4.
+    pub fn from_semitones(semitones: u32) -> Interval {
+        const SIMPLE: [(Quality, u32); 12] = [
+            (Quality::Perfect, 1),
+            (Quality::Minor, 2),
+            (Quality::Major, 2),
+            (Quality::Minor, 3),
+            (Quality::Major, 3),
+            (Quality::Perfect, 4),
+            (Quality::Augmented, 4),
+            (Quality::Perfect, 5),
+            (Quality::Minor, 6),
+            (Quality::Major, 6),
+            (Quality::Minor, 7),
+            (Quality::Major, 7),
+        ];
+        let octaves = semitones / 12;
+        let (quality, number) = SIMPLE[(semitones % 12) as usize];
+        let number = if octaves > 0 && number == 1 {
+            8 + 7 * (octaves - 1)
+        } else {
+            number + 7 * octaves
+        };
+        Interval { quality, number }
+    }
+}

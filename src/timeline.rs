@@ -1,0 +1,394 @@
+//! The common note-and-bar timeline that every input kind is read into.
+//!
+//! A [`Piece`] holds where the data came from ([`Provenance`]), every part or track found
+//! ([`Part`], each with all its notes), the bar grid ([`Bar`]), the tempo map
+//! ([`TempoMap`]), key and time signatures, chord symbols, ornaments, the selected melody and
+//! the warnings met while reading.
+//!
+//! Conventions: times are in quarter-note [`Beats`] from the start of the piece and in
+//! [`Seconds`] through the tempo map; symbolic inputs also keep exact integer ticks at
+//! [`Piece::resolution`] ticks per quarter note, so `onset = onset_ticks / resolution` holds
+//! exactly. The first sounding moment of the piece is 0, pickup or not. Pitches are in concert
+//! pitch (transposing instruments are transposed to sounding pitch while reading).
+
+use crate::units::{Beats, MidiPitch, Seconds};
+use serde::Serialize;
+
+/// Input format, detected from the content.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Format {
+    /// Standard MIDI File.
+    Midi,
+    /// Uncompressed MusicXML.
+    MusicXml,
+    /// Compressed MusicXML (`.mxl` zip container).
+    Mxl,
+}
+
+impl Format {
+    /// A short human name.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Format::Midi => "Standard MIDI File",
+            Format::MusicXml => "MusicXML",
+            Format::Mxl => "compressed MusicXML (.mxl)",
+        }
+    }
+}
+
+/// Where a piece came from.
+#[derive(Debug, Clone, Serialize)]
+pub struct Provenance {
+    /// Path as given by the user.
+    pub path: String,
+    /// Size in bytes.
+    pub bytes: u64,
+    /// SHA-256 of the file's bytes, lower-case hex.
+    pub sha256: String,
+    /// Detected format.
+    pub format: Format,
+    /// Details of the container, e.g. `SMF format 1, 480 ticks per quarter` or the root file
+    /// inside an `.mxl`.
+    pub detail: String,
+}
+
+/// One note of the timeline.
+#[derive(Debug, Clone, Serialize)]
+pub struct Note {
+    /// Onset in exact ticks at the piece's resolution.
+    pub onset_ticks: i64,
+    /// Duration in exact ticks at the piece's resolution.
+    pub duration_ticks: i64,
+    /// Onset in quarter notes from the start of the piece.
+    pub onset: Beats,
+    /// Duration in quarter notes.
+    pub duration: Beats,
+    /// Onset in seconds through the tempo map.
+    pub onset_seconds: Seconds,
+    /// Duration in seconds through the tempo map.
+    pub duration_seconds: Seconds,
+    /// Concert pitch as a MIDI number (fractional for microtones and audio).
+    pub pitch: MidiPitch,
+    /// Spelling at concert pitch, where the source spells it.
+    pub spelling: Option<crate::theory::Spelling>,
+    /// Index into [`Piece::bars`] of the bar the note starts in.
+    pub bar: usize,
+    /// Position within that bar in quarter notes (0 = downbeat).
+    pub offset_in_bar: Beats,
+    /// Index into [`Piece::parts`].
+    pub part: usize,
+    /// Voice as given by the source (MusicXML `<voice>`); MIDI notes have none.
+    pub voice: Option<String>,
+    /// Staff number within the part, 1-based (MusicXML `<staff>`; 1 when absent).
+    pub staff: u8,
+    /// Lyric syllable sung on this note, with a hyphen marking a syllable that continues.
+    pub lyric: Option<String>,
+    /// Key velocity for MIDI input.
+    pub velocity: Option<u8>,
+    /// Confidence in [0, 1]; 1 for symbolic input.
+    pub confidence: f32,
+}
+
+impl Note {
+    /// End of the note in ticks.
+    pub fn end_ticks(&self) -> i64 {
+        self.onset_ticks + self.duration_ticks
+    }
+}
+
+/// A bar (measure) of the bar grid.
+#[derive(Debug, Clone, Serialize)]
+pub struct Bar {
+    /// 0-based ordinal position in the timeline.
+    pub index: usize,
+    /// The label as printed (MusicXML `number`, e.g. `0`, `12a`); 1-based numbers for MIDI.
+    pub label: String,
+    /// Start in ticks.
+    pub start_ticks: i64,
+    /// Actual length in ticks (a pickup is shorter than its time signature).
+    pub length_ticks: i64,
+    /// Start in quarter notes.
+    pub start: Beats,
+    /// Start in seconds.
+    pub start_seconds: Seconds,
+    /// Time signature in force, as (numerator, denominator).
+    pub time_signature: (u32, u32),
+    /// An incomplete opening bar (anacrusis).
+    pub pickup: bool,
+    /// The source marks the bar as not counted in the numbering (MusicXML `implicit="yes"`).
+    pub implicit: bool,
+    /// The grid is estimated rather than read (audio).
+    pub estimated: bool,
+}
+
+/// A tempo change: from `ticks` on, a quarter note lasts `micros_per_quarter` µs.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct TempoChange {
+    /// Position in ticks.
+    pub ticks: i64,
+    /// Microseconds per quarter note (SMF Set Tempo); 500,000 = 120 bpm.
+    pub micros_per_quarter: f64,
+}
+
+impl TempoChange {
+    /// Quarter notes per minute.
+    pub fn bpm(&self) -> f64 {
+        60_000_000.0 / self.micros_per_quarter
+    }
+}
+
+/// Tempo map: converts ticks to seconds. The only place where beats become seconds.
+#[derive(Debug, Clone, Serialize)]
+pub struct TempoMap {
+    /// Ticks per quarter note.
+    pub resolution: u32,
+    /// Tempo changes sorted by position; the first is at tick 0.
+    pub changes: Vec<TempoChange>,
+    /// Seconds elapsed at each change (parallel to `changes`).
+    #[serde(skip)]
+    elapsed: Vec<f64>,
+}
+
+/// Default tempo when the source gives none: 500,000 µs per quarter note = 120 bpm
+/// (Standard MIDI Files 1.0; also the usual default for MusicXML without `<sound tempo>`).
+pub const DEFAULT_MICROS_PER_QUARTER: f64 = 500_000.0;
+
+impl TempoMap {
+    /// Builds a map from changes in any order; later entries at the same tick win, and a
+    /// change at tick 0 of 120 bpm is assumed when none is given there.
+    pub fn new(resolution: u32, mut changes: Vec<TempoChange>) -> TempoMap {
+        let resolution = resolution.max(1);
+        changes.retain(|c| c.micros_per_quarter.is_finite() && c.micros_per_quarter > 0.0);
+        changes.sort_by_key(|c| c.ticks.max(0));
+        let mut merged: Vec<TempoChange> = Vec::with_capacity(changes.len() + 1);
+        for mut change in changes {
+            change.ticks = change.ticks.max(0);
+            match merged.last_mut() {
+                Some(last) if last.ticks == change.ticks => *last = change,
+                Some(last) if last.micros_per_quarter == change.micros_per_quarter => {}
+                _ => merged.push(change),
+            }
+        }
+        if merged.first().is_none_or(|c| c.ticks > 0) {
+            merged.insert(
+                0,
+                TempoChange {
+                    ticks: 0,
+                    micros_per_quarter: DEFAULT_MICROS_PER_QUARTER,
+                },
+            );
+        }
+        let mut elapsed = Vec::with_capacity(merged.len());
+        let mut seconds = 0.0;
+        for (i, change) in merged.iter().enumerate() {
+            if i > 0 {
+                let prev = merged[i - 1];
+                seconds += (change.ticks - prev.ticks) as f64 / f64::from(resolution)
+                    * prev.micros_per_quarter
+                    / 1e6;
+            }
+            elapsed.push(seconds);
+        }
+        TempoMap {
+            resolution,
+            changes: merged,
+            elapsed,
+        }
+    }
+
+    /// Seconds from the start at a position in ticks.
+    pub fn seconds_at(&self, ticks: i64) -> Seconds {
+        let i = self
+            .changes
+            .partition_point(|c| c.ticks <= ticks)
+            .saturating_sub(1);
+        let (change, base) = match (self.changes.get(i), self.elapsed.get(i)) {
+            (Some(c), Some(e)) => (*c, *e),
+            _ => {
+                return Seconds(
+                    ticks as f64 / f64::from(self.resolution) * DEFAULT_MICROS_PER_QUARTER / 1e6,
+                )
+            }
+        };
+        Seconds(
+            base + (ticks - change.ticks) as f64 / f64::from(self.resolution)
+                * change.micros_per_quarter
+                / 1e6,
+        )
+    }
+
+    /// Quarter notes at a position in ticks.
+    pub fn beats_at(&self, ticks: i64) -> Beats {
+        Beats(ticks as f64 / f64::from(self.resolution))
+    }
+}
+
+/// A time signature from a position on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct TimeSignature {
+    /// Position in ticks.
+    pub ticks: i64,
+    /// Beats per bar (the sum for additive signatures such as 3+2/8).
+    pub numerator: u32,
+    /// Beat unit (4 = quarter, 8 = eighth).
+    pub denominator: u32,
+}
+
+impl TimeSignature {
+    /// Nominal bar length in ticks at `resolution` ticks per quarter.
+    pub fn bar_ticks(&self, resolution: u32) -> i64 {
+        i64::from(self.numerator) * 4 * i64::from(resolution) / i64::from(self.denominator.max(1))
+    }
+}
+
+/// A key signature from a position on (concert pitch).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct KeySignature {
+    /// Position in ticks.
+    pub ticks: i64,
+    /// Sharps (positive) or flats (negative).
+    pub fifths: i32,
+    /// Mode where the source gives it.
+    pub mode: crate::theory::KeyMode,
+}
+
+/// A chord symbol written above the music (MusicXML `<harmony>`).
+#[derive(Debug, Clone, Serialize)]
+pub struct ChordSymbol {
+    /// Position in ticks.
+    pub ticks: i64,
+    /// Position in quarter notes.
+    pub onset: Beats,
+    /// Index into [`Piece::bars`].
+    pub bar: usize,
+    /// Index into [`Piece::parts`].
+    pub part: usize,
+    /// The symbol as text, e.g. `Dm7`, `G7/B` (concert pitch).
+    pub text: String,
+}
+
+/// A note kept out of the melody but listed, e.g. a grace note.
+#[derive(Debug, Clone, Serialize)]
+pub struct Ornament {
+    /// Kind, e.g. `grace`.
+    pub kind: String,
+    /// Index into [`Piece::parts`].
+    pub part: usize,
+    /// Index into [`Piece::bars`].
+    pub bar: usize,
+    /// Position in quarter notes (of the note it ornaments).
+    pub onset: Beats,
+    /// Concert pitch.
+    pub pitch: MidiPitch,
+}
+
+/// A part (MusicXML) or a track/channel pair (MIDI).
+#[derive(Debug, Clone, Serialize)]
+pub struct Part {
+    /// Identifier used to select it: the MusicXML part id, or `track<T>-ch<C>` for MIDI
+    /// (tracks numbered from 1, channels 1–16).
+    pub id: String,
+    /// Name from the source (part name, track name), empty when none.
+    pub name: String,
+    /// Instrument name or General MIDI program, empty when none.
+    pub instrument: String,
+    /// MIDI track number (1-based) for MIDI input.
+    pub track: Option<u32>,
+    /// MIDI channel (1–16) where known.
+    pub channel: Option<u8>,
+    /// Percussion (MIDI channel 10, or unpitched MusicXML notes).
+    pub percussion: bool,
+    /// Written-to-sounding transposition in semitones (MusicXML `<transpose>`); pitches in
+    /// `notes` are already at concert pitch.
+    pub transposition: i32,
+    /// Number of staves.
+    pub staves: u8,
+    /// Voices found, in order of first appearance.
+    pub voices: Vec<String>,
+    /// All notes of the part in time order (ties merged, grace notes excluded).
+    pub notes: Vec<Note>,
+}
+
+/// Why and what was chosen as the melody.
+#[derive(Debug, Clone, Serialize)]
+pub struct Selection {
+    /// Index into [`Piece::parts`].
+    pub part: usize,
+    /// Staff restriction, if any.
+    pub staff: Option<u8>,
+    /// Voice restriction, if any.
+    pub voice: Option<String>,
+    /// Bar range as labels, if any.
+    pub bars: Option<(String, String)>,
+    /// Whether chords were reduced to their highest note (skyline).
+    pub skyline: bool,
+    /// A sentence saying what was chosen and why.
+    pub reason: String,
+}
+
+/// A piece of music in the common timeline.
+#[derive(Debug, Clone, Serialize)]
+pub struct Piece {
+    /// Where it came from.
+    pub provenance: Provenance,
+    /// Title, where the file has one.
+    pub title: Option<String>,
+    /// Composer, where the file has one.
+    pub composer: Option<String>,
+    /// Ticks per quarter note of the `*_ticks` fields.
+    pub resolution: u32,
+    /// Every part or track found.
+    pub parts: Vec<Part>,
+    /// The bar grid, in timeline order.
+    pub bars: Vec<Bar>,
+    /// Tempo map.
+    pub tempo: TempoMap,
+    /// Time signatures.
+    pub time_signatures: Vec<TimeSignature>,
+    /// Key signatures (concert pitch).
+    pub key_signatures: Vec<KeySignature>,
+    /// Chord symbols.
+    pub chord_symbols: Vec<ChordSymbol>,
+    /// Notes kept out of the melody (grace notes).
+    pub ornaments: Vec<Ornament>,
+    /// Whether repeats were unfolded into performance order.
+    pub repeats_unfolded: bool,
+    /// The selected melody: one note at a time, in time order.
+    pub melody: Vec<Note>,
+    /// What was selected and why.
+    pub selection: Selection,
+    /// Warnings met while reading, each naming where.
+    pub warnings: Vec<String>,
+}
+
+impl Piece {
+    /// The bar a tick position falls in (the last bar starting at or before it).
+    pub fn bar_at(&self, ticks: i64) -> usize {
+        bar_index_at(&self.bars, ticks)
+    }
+
+    /// The time signature in force at a tick position (4/4 when none).
+    pub fn time_signature_at(&self, ticks: i64) -> (u32, u32) {
+        let i = self.time_signatures.partition_point(|t| t.ticks <= ticks);
+        match i.checked_sub(1).and_then(|i| self.time_signatures.get(i)) {
+            Some(t) => (t.numerator, t.denominator),
+            None => (4, 4),
+        }
+    }
+
+    /// The beat of a note within its bar, 1-based, counted in the time signature's
+    /// denominator unit (in 6/8 an eighth note is one beat; in 4/4 a quarter note).
+    pub fn beat_in_bar(&self, note: &Note) -> f64 {
+        let denominator = self
+            .bars
+            .get(note.bar)
+            .map_or(4, |b| b.time_signature.1.max(1));
+        1.0 + note.offset_in_bar.0 * f64::from(denominator) / 4.0
+    }
+}
+
+/// The index of the last bar starting at or before `ticks` (0 when before the first).
+pub fn bar_index_at(bars: &[Bar], ticks: i64) -> usize {
+    bars.partition_point(|b| b.start_ticks <= ticks).saturating_sub(1)
+}
