@@ -273,7 +273,8 @@ pub(super) fn unfold_order(marks: &[&RepeatMarks], max_len: usize) -> (Vec<usize
             active = Some(numbers.clone());
         }
         endings[i].clone_from(&active);
-        if m.ending_stop {
+        // An ending closes at its stop mark, or failing that at its backward repeat.
+        if m.ending_stop || m.backward.is_some() {
             active = None;
         }
     }
