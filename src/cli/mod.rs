@@ -74,6 +74,9 @@ fn inspect(args: InspectArgs) -> Result<i32> {
             json
         }
     };
+    for warning in &piece.warnings {
+        eprintln!("collatio: warning: {}: {warning}", args.file.display());
+    }
     let mut stdout = std::io::stdout().lock();
     if let Err(e) = stdout.write_all(text.as_bytes()) {
         if e.kind() != std::io::ErrorKind::BrokenPipe {

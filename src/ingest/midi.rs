@@ -25,7 +25,10 @@ const PERCUSSION_CHANNEL: u8 = 9;
 pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
     let bytes = unwrap_rmid(bytes)?;
     let smf = Smf::parse(bytes).map_err(|e| Problem::Midi(describe_midly_error(&e, bytes)))?;
-    let mut raw = RawPiece::default();
+    let mut raw = RawPiece {
+        warnings: chunk_warnings(bytes),
+        ..RawPiece::default()
+    };
     let (resolution, timecode) = match smf.header.timing {
         Timing::Metrical(tpq) => (u32::from(tpq.as_int()), false),
         Timing::Timecode(fps, sub) => (u32::from(fps.as_int()) * u32::from(sub.max(1)), true),
@@ -441,6 +444,38 @@ fn unwrap_rmid(bytes: &[u8]) -> Result<&[u8], Problem> {
     Err(Problem::Midi(
         "RIFF/RMID container without a 'data' chunk holding the MIDI file".into(),
     ))
+}
+
+/// Checks the chunk lengths that the file declares against its size (SMF 1.0: each chunk is a
+/// 4-byte type, a 32-bit big-endian length, then that many bytes). The decoder reads what is
+/// there; these warnings say what was missing.
+fn chunk_warnings(bytes: &[u8]) -> Vec<String> {
+    let mut warnings = Vec::new();
+    let mut pos = 0usize;
+    let mut track = 0usize;
+    while pos + 8 <= bytes.len() {
+        let kind = &bytes[pos..pos + 4];
+        let declared =
+            u32::from_be_bytes([bytes[pos + 4], bytes[pos + 5], bytes[pos + 6], bytes[pos + 7]]);
+        let remaining = bytes.len() - pos - 8;
+        if kind == b"MTrk" {
+            track += 1;
+        }
+        if declared as usize > remaining {
+            let what = if kind == b"MTrk" {
+                format!("track {track}")
+            } else {
+                format!("chunk '{}'", String::from_utf8_lossy(kind))
+            };
+            warnings.push(format!(
+                "midi: {what} at byte {pos}: chunk length {declared} exceeds the {remaining} \
+                 bytes left in the file (truncated?); read what is there"
+            ));
+            break;
+        }
+        pos += 8 + declared as usize;
+    }
+    warnings
 }
 
 /// A plain-language version of a decoder error, with the header facts that explain it.
