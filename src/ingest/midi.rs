@@ -167,7 +167,7 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
             let instrument = if !instrument.is_empty() {
                 instrument.clone()
             } else if channel == PERCUSSION_CHANNEL {
-                "percussion".to_string()
+                "General MIDI percussion map".to_string()
             } else {
                 program.map_or(String::new(), |p| format!("General MIDI program {}", p + 1))
             };
