@@ -10,6 +10,9 @@
 #![warn(missing_docs)]
 #![cfg_attr(test, allow(clippy::unwrap_used, clippy::expect_used))]
 
+pub mod align;
+pub mod compare;
+pub mod features;
 pub mod ingest;
 pub mod report;
 pub mod theory;

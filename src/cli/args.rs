@@ -35,7 +35,7 @@ pub enum Command {
                       labels as printed, beats, concert pitch names (C4 = middle C) and \
                       durations in beats and seconds.",
         after_long_help = "Examples:
-  collatio inspect demo/lantern-waltz.musicxml
+  collatio inspect demo/harbour-lights.musicxml
   collatio inspect song.mid --track 2 --channel 1 --bars 9-24
   collatio inspect score.mxl --part P2 --voice 1 --format json > melody.json
   collatio inspect score.musicxml --unfold-repeats
@@ -47,6 +47,185 @@ Exit codes:
   3  input error (the file could not be read)"
     )]
     Inspect(InspectArgs),
+    /// Find the melodic passages two pieces share, and measure each.
+    #[command(
+        long_about = "Find every passage of melody that two pieces share, whatever their key, \
+                      tempo or notation: local alignment over notes (Smith-Waterman with affine \
+                      gaps, under all 12 transpositions, with fragmentation and consolidation of \
+                      repeated notes). For each passage: the bars in both works as printed, the \
+                      transposition, the tempo ratio, the score, the percent melodic identity and \
+                      the aligned notes.",
+        after_long_help = "Selection (--select-a, --select-b) takes comma-separated key=value \
+pairs: part=ID|NAME|N, track=N, channel=N, staff=N, voice=V, bars=FIRST-LAST, percussion=yes.
+
+Examples:
+  collatio compare demo/harbour-lights.musicxml demo/paper-boats.musicxml
+  collatio compare a.mid b.musicxml --select-a track=2 --select-b part=P1,voice=1
+  collatio compare a.mxl b.mxl --select-b bars=17-40 --format json > findings.json
+
+Exit codes:
+  0  success
+  1  compared, but some input was read with warnings
+  2  usage error (bad option, or a selection that matches nothing)
+  3  input error (a file could not be read)"
+    )]
+    Compare(CompareArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// The first work (A): MusicXML, .mxl or MIDI.
+    pub a: PathBuf,
+    /// The second work (B), compared against A.
+    pub b: PathBuf,
+
+    /// Melody of A, e.g. part=P1,voice=1 or track=2,channel=1,bars=9-24.
+    #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
+    pub select_a: Option<SelectionSpec>,
+    /// Melody of B, same form as --select-a.
+    #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
+    pub select_b: Option<SelectionSpec>,
+    /// Unfold repeats and endings in both works.
+    #[arg(long, help_heading = "INPUT")]
+    pub unfold_repeats: bool,
+
+    #[command(flatten)]
+    pub alignment: AlignmentArgs,
+
+    #[command(flatten)]
+    pub limits: LimitArgs,
+
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
+    pub format: OutputFormat,
+}
+
+/// Scoring of the alignment, in points per note pair.
+#[derive(Debug, Args)]
+pub struct AlignmentArgs {
+    /// Points for the same pitch class after transposing.
+    #[arg(long, default_value_t = 8, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub pitch_match: i32,
+    /// Points for a pitch one semitone off.
+    #[arg(long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub pitch_near: i32,
+    /// Points for any other pitch.
+    #[arg(long, default_value_t = -8, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub pitch_mismatch: i32,
+    /// Points for the same interval into both notes.
+    #[arg(long, default_value_t = 4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub interval_match: i32,
+    /// Points for intervals in one direction within two semitones.
+    #[arg(long, default_value_t = 0, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub interval_near: i32,
+    /// Points for other intervals.
+    #[arg(long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub interval_mismatch: i32,
+    /// Points for the same rhythm (inter-onset ratio to the previous note).
+    #[arg(long, default_value_t = 2, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub rhythm_match: i32,
+    /// Points for rhythms within a factor of two.
+    #[arg(long, default_value_t = 0, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub rhythm_near: i32,
+    /// Points for other rhythms.
+    #[arg(long, default_value_t = -3, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub rhythm_mismatch: i32,
+    /// Points for the same metric level (downbeat, strong, weak, off-beat).
+    #[arg(long, default_value_t = 1, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    pub metric_match: i32,
+    /// Cost of opening a gap (one unmatched note).
+    #[arg(long, default_value_t = 16, help_heading = "ALIGNMENT")]
+    pub gap_open: i32,
+    /// Cost of each further unmatched note in a gap.
+    #[arg(long, default_value_t = 8, help_heading = "ALIGNMENT")]
+    pub gap_extend: i32,
+    /// Cost per extra note when one note is split into repeated notes.
+    #[arg(long, default_value_t = 2, help_heading = "ALIGNMENT")]
+    pub fragment_penalty: i32,
+    /// Most repeated notes one note may be split into (1 = no splitting, at most 3).
+    #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(1..=3), help_heading = "ALIGNMENT")]
+    pub max_fragments: u8,
+    /// Lowest score reported as a passage.
+    #[arg(long, default_value_t = 60, help_heading = "ALIGNMENT")]
+    pub min_score: i32,
+    /// Fewest notes on each side of a passage.
+    #[arg(long, default_value_t = 5, help_heading = "ALIGNMENT")]
+    pub min_notes: usize,
+    /// Most passages reported.
+    #[arg(long, default_value_t = 20, help_heading = "ALIGNMENT")]
+    pub max_passages: usize,
+}
+
+impl AlignmentArgs {
+    /// The library parameters.
+    pub fn params(&self) -> collatio::align::AlignParams {
+        collatio::align::AlignParams {
+            pitch_match: self.pitch_match,
+            pitch_near: self.pitch_near,
+            pitch_mismatch: self.pitch_mismatch,
+            interval_match: self.interval_match,
+            interval_near: self.interval_near,
+            interval_mismatch: self.interval_mismatch,
+            rhythm_match: self.rhythm_match,
+            rhythm_near: self.rhythm_near,
+            rhythm_mismatch: self.rhythm_mismatch,
+            metric_match: self.metric_match,
+            gap_open: self.gap_open,
+            gap_extend: self.gap_extend,
+            fragment_penalty: self.fragment_penalty,
+            max_fragments: usize::from(self.max_fragments),
+            min_score: self.min_score,
+            min_notes: self.min_notes,
+            max_passages: self.max_passages,
+        }
+    }
+}
+
+/// A per-work selection written as key=value pairs.
+#[derive(Debug, Clone, Default)]
+pub struct SelectionSpec(pub MelodyChoice);
+
+impl std::str::FromStr for SelectionSpec {
+    type Err = String;
+
+    fn from_str(text: &str) -> Result<Self, Self::Err> {
+        let mut choice = MelodyChoice::default();
+        for item in text.split(',').map(str::trim).filter(|s| !s.is_empty()) {
+            let (key, value) = item
+                .split_once('=')
+                .ok_or_else(|| format!("'{item}' should be key=value, e.g. part=P1"))?;
+            let value = value.trim();
+            let number = |what: &str| {
+                value
+                    .parse::<u32>()
+                    .map_err(|_| format!("{what} wants a number, got '{value}'"))
+            };
+            match key.trim() {
+                "part" => choice.part = Some(value.to_string()),
+                "track" => choice.track = Some(number("track")?),
+                "channel" => {
+                    let c = number("channel")?;
+                    if !(1..=16).contains(&c) {
+                        return Err(format!("channel must be 1-16, got {c}"));
+                    }
+                    choice.channel = Some(c as u8);
+                }
+                "staff" => choice.staff = Some(number("staff")?.clamp(1, 255) as u8),
+                "voice" => choice.voice = Some(value.to_string()),
+                "bars" => choice.bars = Some(value.parse()?),
+                "percussion" => choice.include_percussion = matches!(value, "yes" | "true" | "1"),
+                other => {
+                    return Err(format!(
+                        "unknown key '{other}'; use part, track, channel, staff, voice, bars or percussion"
+                    ))
+                }
+            }
+        }
+        if choice.part.is_some() && (choice.track.is_some() || choice.channel.is_some()) {
+            return Err("part names one part; do not combine it with track or channel".into());
+        }
+        Ok(SelectionSpec(choice))
+    }
 }
 
 #[derive(Debug, Clone, Copy, ValueEnum)]
@@ -128,6 +307,32 @@ pub struct LimitArgs {
 #[error("{0}")]
 pub struct UsageError(pub String);
 
+impl LimitArgs {
+    /// The library limits.
+    pub fn limits(&self) -> Limits {
+        let mib = |v: u64| v.saturating_mul(1 << 20);
+        Limits {
+            max_file_bytes: mib(self.max_file_mb),
+            max_decompressed_bytes: mib(self.max_decompressed_mb),
+            max_archive_entries: self.max_archive_entries,
+            max_notes: self.max_notes,
+            max_bars: self.max_bars,
+        }
+    }
+}
+
+impl CompareArgs {
+    /// Reading options for A and B.
+    pub fn read_options(&self) -> (ReadOptions, ReadOptions) {
+        let make = |spec: &Option<SelectionSpec>| ReadOptions {
+            limits: self.limits.limits(),
+            choice: spec.clone().unwrap_or_default().0,
+            unfold_repeats: self.unfold_repeats,
+        };
+        (make(&self.select_a), make(&self.select_b))
+    }
+}
+
 impl InspectArgs {
     /// Validates the arguments once into library options.
     pub fn read_options(&self) -> Result<ReadOptions, UsageError> {
@@ -137,15 +342,8 @@ impl InspectArgs {
                 "--part names one part; do not combine it with --track or --channel".into(),
             ));
         }
-        let mib = |v: u64| v.saturating_mul(1 << 20);
         Ok(ReadOptions {
-            limits: Limits {
-                max_file_bytes: mib(self.limits.max_file_mb),
-                max_decompressed_bytes: mib(self.limits.max_decompressed_mb),
-                max_archive_entries: self.limits.max_archive_entries,
-                max_notes: self.limits.max_notes,
-                max_bars: self.limits.max_bars,
-            },
+            limits: self.limits.limits(),
             choice: MelodyChoice {
                 part: s.part.clone(),
                 track: s.track,

@@ -7,7 +7,7 @@
 mod args;
 
 use anyhow::Result;
-use args::{Cli, Command, InspectArgs, OutputFormat};
+use args::{Cli, CompareArgs, Command, InspectArgs, OutputFormat};
 use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
 use std::io::Write;
@@ -59,6 +59,42 @@ fn exit_code_of(error: &anyhow::Error) -> i32 {
 fn run(cli: Cli) -> Result<i32> {
     match cli.command {
         Command::Inspect(args) => inspect(args),
+        Command::Compare(args) => compare(args),
+    }
+}
+
+fn compare(args: CompareArgs) -> Result<i32> {
+    let (options_a, options_b) = args.read_options();
+    let params = args.alignment.params();
+    let a = read_file(&args.a, &options_a)?;
+    let b = read_file(&args.b, &options_b)?;
+    let result = collatio::compare::compare(&a, &b, &params);
+    let text = match args.format {
+        OutputFormat::Text => collatio::report::compare::render_text(&a, &b, &result),
+        OutputFormat::Json => {
+            let record = collatio::report::compare::record(&a, &b, &params, &result);
+            let mut json = serde_json::to_string_pretty(&record)?;
+            json.push('\n');
+            json
+        }
+    };
+    let mut warned = false;
+    for (path, piece) in [(&args.a, &a), (&args.b, &b)] {
+        for warning in &piece.warnings {
+            warned = true;
+            eprintln!("collatio: warning: {}: {warning}", path.display());
+        }
+    }
+    write_stdout(&text)?;
+    Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
+}
+
+/// Writes to standard output; a closed pipe (`| head`) is not an error.
+fn write_stdout(text: &str) -> Result<()> {
+    let mut stdout = std::io::stdout().lock();
+    match stdout.write_all(text.as_bytes()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
+        _ => Ok(()),
     }
 }
 
@@ -77,12 +113,7 @@ fn inspect(args: InspectArgs) -> Result<i32> {
     for warning in &piece.warnings {
         eprintln!("collatio: warning: {}: {warning}", args.file.display());
     }
-    let mut stdout = std::io::stdout().lock();
-    if let Err(e) = stdout.write_all(text.as_bytes()) {
-        if e.kind() != std::io::ErrorKind::BrokenPipe {
-            return Err(e.into());
-        }
-    }
+    write_stdout(&text)?;
     Ok(if piece.warnings.is_empty() {
         EXIT_OK
     } else {

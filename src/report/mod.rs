@@ -1,3 +1,4 @@
-//! Rendering results: the human listing and JSON record of `inspect`.
+//! Rendering results: human listings and JSON records.
 
+pub mod compare;
 pub mod inspect;

@@ -1,0 +1,250 @@
+//! Melodic local alignment, invariant to key and tempo.
+//!
+//! In: two [`Sequence`]s (from [`crate::features`]) and [`AlignParams`]. Out: the shared
+//! passages as [`Alignment`]s, strongest first, none overlapping another in both works.
+//!
+//! Method:
+//! - Smith–Waterman local alignment (Smith & Waterman 1981) with affine gaps, a gap of length k
+//!   costing `gap_open + (k − 1) · gap_extend` (Gotoh 1982), over note sequences.
+//! - The pair score ([`score`]) rewards the same pitch class under a transposition, the same
+//!   interval into the note, the same inter-onset ratio (log scale) and the same metric level,
+//!   with partial credit for near misses. Every term is invariant to transposition except the
+//!   pitch term, which is evaluated under each of the 12 transpositions; every term is a ratio
+//!   of durations, so scaling all durations leaves scores unchanged.
+//! - Fragmentation and consolidation (Mongeau & Sankoff 1990): one note against two or three
+//!   repeated notes of one pitch, as when different lyrics split a note.
+//! - Several passages by declumping (after Waterman & Eggert 1987): once a passage is reported,
+//!   the rectangle it spans (its A notes × its B notes) is closed and the next best alignment
+//!   is found, so passages never overlap in both works at once (a chorus of A that recurs may
+//!   still match the same bars of B twice).
+//! - A linear-memory scan finds each best score and the rectangle it spans; the full traceback
+//!   runs only inside that rectangle.
+//!
+//! ```
+//! use collatio::align::{align, AlignParams};
+//! use collatio::features::Sequence;
+//! let empty = Sequence { notes: Vec::new() };
+//! assert!(align(&empty, &empty, &AlignParams::default()).is_empty());
+//! ```
+
+mod scan;
+pub(crate) mod score;
+mod trace;
+
+use crate::features::Sequence;
+use scan::{Blocked, Hit};
+use score::Scorer;
+use serde::Serialize;
+
+/// Parameters of the alignment, in score points. Defaults favour the melody's pitches and
+/// intervals; rhythm and metre are secondary evidence. They are set so that an unrelated pair
+/// of diatonic notes scores about −4 on average (a local alignment needs a negative
+/// expectation), after the log-odds reasoning of substitution scores: a pitch-class match
+/// under the key's transposition happens by chance about one time in five, so it is worth
+/// about as much as a mismatch costs; a near miss (a step away) is common by chance and is
+/// only a lesser penalty.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AlignParams {
+    /// Same pitch class under the transposition. Default 8.
+    pub pitch_match: i32,
+    /// One semitone away (a near miss). Default −4.
+    pub pitch_near: i32,
+    /// Any other pitch. Default −8.
+    pub pitch_mismatch: i32,
+    /// Same interval (semitones) into both notes. Default 4.
+    pub interval_match: i32,
+    /// Same direction, within two semitones. Default 0.
+    pub interval_near: i32,
+    /// Other intervals. Default −4.
+    pub interval_mismatch: i32,
+    /// Same inter-onset ratio to the previous note (within 0.1 in log2). Default 2.
+    pub rhythm_match: i32,
+    /// Ratios within a factor of two of each other. Default 0.
+    pub rhythm_near: i32,
+    /// Other ratios. Default −3.
+    pub rhythm_mismatch: i32,
+    /// Same metric level (downbeat, strong, weak, off-beat). Default 1.
+    pub metric_match: i32,
+    /// Cost of the first note of a gap. Default 16.
+    pub gap_open: i32,
+    /// Cost of each further note of a gap. Default 8.
+    pub gap_extend: i32,
+    /// Cost per extra note in a fragmentation or consolidation. Default 2.
+    pub fragment_penalty: i32,
+    /// Most notes one note may be split into (1 turns fragmentation off, at most 3).
+    /// Default 3.
+    pub max_fragments: usize,
+    /// Lowest score reported as a passage. Default 60 (about four identical notes).
+    pub min_score: i32,
+    /// Fewest notes on each side for a passage. Default 5.
+    pub min_notes: usize,
+    /// Most passages reported per pair. Default 20.
+    pub max_passages: usize,
+}
+
+impl Default for AlignParams {
+    fn default() -> Self {
+        AlignParams {
+            pitch_match: 8,
+            pitch_near: -4,
+            pitch_mismatch: -8,
+            interval_match: 4,
+            interval_near: 0,
+            interval_mismatch: -4,
+            rhythm_match: 2,
+            rhythm_near: 0,
+            rhythm_mismatch: -3,
+            metric_match: 1,
+            gap_open: 16,
+            gap_extend: 8,
+            fragment_penalty: 2,
+            max_fragments: 3,
+            min_score: 60,
+            min_notes: 5,
+            max_passages: 20,
+        }
+    }
+}
+
+impl AlignParams {
+    /// The score of a note paired with an identical note (all four terms agreeing).
+    pub fn identical_pair(&self) -> i32 {
+        self.pitch_match + self.interval_match + self.rhythm_match + self.metric_match
+    }
+}
+
+/// One step of an alignment path; indices are note positions in the two sequences.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Step {
+    /// a and b aligned (equal or not).
+    Pair {
+        /// Note of A.
+        a: usize,
+        /// Note of B.
+        b: usize,
+    },
+    /// One note of A against repeated notes of B (fragmentation).
+    Fragmentation {
+        /// Note of A.
+        a: usize,
+        /// First note of B.
+        b_first: usize,
+        /// Last note of B.
+        b_last: usize,
+    },
+    /// Repeated notes of A against one note of B (consolidation).
+    Consolidation {
+        /// First note of A.
+        a_first: usize,
+        /// Last note of A.
+        a_last: usize,
+        /// Note of B.
+        b: usize,
+    },
+    /// A note of A with no counterpart in B.
+    OnlyA {
+        /// Note of A.
+        a: usize,
+    },
+    /// A note of B with no counterpart in A.
+    OnlyB {
+        /// Note of B.
+        b: usize,
+    },
+}
+
+/// A local alignment: one shared passage.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Alignment {
+    /// Transposition from A to B in semitones modulo 12 (B = A + t).
+    pub transposition: u8,
+    /// Alignment score in points.
+    pub score: i32,
+    /// First and last note of A (inclusive).
+    pub a_range: (usize, usize),
+    /// First and last note of B (inclusive).
+    pub b_range: (usize, usize),
+    /// The path, first step first.
+    pub steps: Vec<Step>,
+}
+
+/// Finds the shared passages of two sequences, strongest first.
+pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment> {
+    if a.is_empty() || b.is_empty() || params.max_passages == 0 {
+        return Vec::new();
+    }
+    let scorer = Scorer::new(a, b, params);
+    let mut blocked = Blocked::default();
+    // Best hit per transposition, and whether it was computed with the current blocks.
+    let mut hits: Vec<(Option<Hit>, bool)> = (0..12u8)
+        .map(|t| (scan::scan(&scorer, params, t, &blocked), true))
+        .collect();
+    let mut out = Vec::new();
+    let mut guard = 0usize;
+    while out.len() < params.max_passages && guard < 12 * (params.max_passages + 4) * 4 {
+        guard += 1;
+        // The transposition with the highest (possibly stale) bound; lower t wins ties.
+        let Some(t) = (0..12usize)
+            .filter(|&t| hits[t].0.is_some())
+            .max_by(|&x, &y| {
+                let sx = hits[x].0.map_or(0, |h| h.score);
+                let sy = hits[y].0.map_or(0, |h| h.score);
+                sx.cmp(&sy).then(y.cmp(&x))
+            })
+        else {
+            break;
+        };
+        let (hit, fresh) = hits[t];
+        let Some(hit) = hit else { break };
+        if hit.score < params.min_score {
+            break;
+        }
+        if !fresh {
+            hits[t] = (scan::scan(&scorer, params, t as u8, &blocked), true);
+            continue;
+        }
+        let (steps, score) = trace::trace(&scorer, params, t as u8, &blocked, &hit);
+        let a_range = span(&steps, true).unwrap_or((hit.start.0, hit.end.0));
+        let b_range = span(&steps, false).unwrap_or((hit.start.1, hit.end.1));
+        blocked.rects.push((
+            (hit.start.0.min(a_range.0), hit.end.0.max(a_range.1)),
+            (hit.start.1.min(b_range.0), hit.end.1.max(b_range.1)),
+        ));
+        for entry in &mut hits {
+            entry.1 = false;
+        }
+        let notes_a = a_range.1 - a_range.0 + 1;
+        let notes_b = b_range.1 - b_range.0 + 1;
+        if notes_a >= params.min_notes && notes_b >= params.min_notes {
+            out.push(Alignment {
+                transposition: t as u8,
+                score,
+                a_range,
+                b_range,
+                steps,
+            });
+        }
+    }
+    out
+}
+
+/// First and last note of one side touched by a path.
+fn span(steps: &[Step], side_a: bool) -> Option<(usize, usize)> {
+    let mut lo = usize::MAX;
+    let mut hi = 0usize;
+    for step in steps {
+        let (first, last) = match (*step, side_a) {
+            (Step::Pair { a, .. }, true) | (Step::Fragmentation { a, .. }, true) => (a, a),
+            (Step::Pair { b, .. }, false) | (Step::Consolidation { b, .. }, false) => (b, b),
+            (Step::Consolidation { a_first, a_last, .. }, true) => (a_first, a_last),
+            (Step::Fragmentation { b_first, b_last, .. }, false) => (b_first, b_last),
+            (Step::OnlyA { a }, true) => (a, a),
+            (Step::OnlyB { b }, false) => (b, b),
+            _ => continue,
+        };
+        lo = lo.min(first);
+        hi = hi.max(last);
+    }
+    (lo <= hi).then_some((lo, hi))
+}

@@ -1,0 +1,186 @@
+//! The linear-memory scoring pass: Smith–Waterman local alignment (Smith & Waterman 1981) with
+//! affine gaps by Gotoh's three-state recurrence (Gotoh 1982), extended with fragmentation and
+//! consolidation moves (Mongeau & Sankoff 1990). Memory is O(m) for an n × m problem: four rows
+//! of H (consolidation looks up to three rows back), one row of F, one scalar E. Each cell also
+//! carries the cell where its best path began, so that a reported alignment's rectangle is
+//! known without storing the matrix; the traceback then runs on that rectangle only.
+
+use super::score::Scorer;
+use super::AlignParams;
+
+/// Minus infinity for gap states, far from overflow when penalties are subtracted.
+const NEG: i32 = i32::MIN / 4;
+
+/// The best local alignment found by a scan: score, last pair and first pair (note indices,
+/// inclusive).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct Hit {
+    pub score: i32,
+    pub start: (usize, usize),
+    pub end: (usize, usize),
+}
+
+/// Regions no alignment may use: rectangles of (A notes × B notes), inclusive.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Blocked {
+    pub rects: Vec<((usize, usize), (usize, usize))>,
+}
+
+impl Blocked {
+    /// For note row `i` of A, a mask over B notes, or `None` when nothing is blocked there.
+    pub fn row_mask(&self, i: usize, m: usize, mask: &mut Vec<bool>) -> bool {
+        let mut any = false;
+        for &((a0, a1), (b0, b1)) in &self.rects {
+            if i >= a0 && i <= a1 {
+                if !any {
+                    mask.clear();
+                    mask.resize(m, false);
+                    any = true;
+                }
+                for cell in mask.iter_mut().take(b1.min(m.saturating_sub(1)) + 1).skip(b0) {
+                    *cell = true;
+                }
+            }
+        }
+        any
+    }
+
+    pub fn contains(&self, i: usize, j: usize) -> bool {
+        self.rects
+            .iter()
+            .any(|&((a0, a1), (b0, b1))| i >= a0 && i <= a1 && j >= b0 && j <= b1)
+    }
+}
+
+#[inline(always)]
+fn pack(i: usize, j: usize) -> u64 {
+    ((i as u64) << 32) | j as u64
+}
+
+#[inline(always)]
+fn unpack(origin: u64) -> (usize, usize) {
+    ((origin >> 32) as usize, (origin & 0xffff_ffff) as usize)
+}
+
+/// Scans all cells under transposition `t` and returns the best-scoring local alignment
+/// avoiding `blocked`, or `None` when no cell scores above zero.
+pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Blocked) -> Option<Hit> {
+    let n = scorer.a.len();
+    let m = scorer.b.len();
+    if n == 0 || m == 0 {
+        return None;
+    }
+    let open = params.gap_open;
+    let extend = params.gap_extend;
+    let max_k = scorer.max_fragments;
+    let width = m + 1;
+    let mut h = vec![0i32; 4 * width];
+    let mut origin = vec![0u64; 4 * width];
+    let mut f = vec![NEG; width];
+    let mut f_origin = vec![0u64; width];
+    let mut mask: Vec<bool> = Vec::new();
+    let mut best = Hit {
+        score: 0,
+        start: (0, 0),
+        end: (0, 0),
+    };
+
+    for i in 1..=n {
+        let cur = (i % 4) * width;
+        let up = ((i - 1) % 4) * width;
+        let ai = i - 1;
+        let masked = blocked.row_mask(ai, m, &mut mask);
+        let run_a = (scorer.a.run[ai] as usize).min(max_k).min(i);
+        h[cur] = 0;
+        let mut e = NEG;
+        let mut e_origin = 0u64;
+        for j in 1..=m {
+            let bj = j - 1;
+            if masked && mask[bj] {
+                h[cur + j] = 0;
+                f[j] = NEG;
+                e = NEG;
+                continue;
+            }
+            // Gap in A: b_j left unmatched, from the left.
+            let from_h = h[cur + j - 1] - open;
+            let from_e = e - extend;
+            if from_h >= from_e {
+                e = from_h;
+                e_origin = origin[cur + j - 1];
+            } else {
+                e = from_e;
+            }
+            // Gap in B: a_i left unmatched, from above.
+            let from_h = h[up + j] - open;
+            let from_f = f[j] - extend;
+            if from_h >= from_f {
+                f[j] = from_h;
+                f_origin[j] = origin[up + j];
+            } else {
+                f[j] = from_f;
+            }
+            // Match or mismatch on the diagonal.
+            let diag = h[up + j - 1];
+            let mut value = diag + scorer.pair(ai, bj, t);
+            let mut from = if diag > 0 {
+                origin[up + j - 1]
+            } else {
+                pack(i, j)
+            };
+            if e > value {
+                value = e;
+                from = e_origin;
+            }
+            if f[j] > value {
+                value = f[j];
+                from = f_origin[j];
+            }
+            // Fragmentation: a_i against b_{j-k+1..=j}.
+            let run_b = (scorer.b.run[bj] as usize).min(max_k).min(j);
+            for k in 2..=run_b {
+                if let Some(s) = scorer.fragment(ai, bj, k, t) {
+                    let prev = h[up + j - k];
+                    if prev + s > value {
+                        value = prev + s;
+                        from = if prev > 0 {
+                            origin[up + j - k]
+                        } else {
+                            pack(i, j - k + 1)
+                        };
+                    }
+                }
+            }
+            // Consolidation: a_{i-k+1..=i} against b_j.
+            for k in 2..=run_a {
+                if let Some(s) = scorer.consolidate(ai, bj, k, t) {
+                    let row = ((i - k) % 4) * width;
+                    let prev = h[row + j - 1];
+                    if prev + s > value {
+                        value = prev + s;
+                        from = if prev > 0 {
+                            origin[row + j - 1]
+                        } else {
+                            pack(i - k + 1, j)
+                        };
+                    }
+                }
+            }
+            if value > 0 {
+                h[cur + j] = value;
+                origin[cur + j] = from;
+                if value > best.score {
+                    let (si, sj) = unpack(from);
+                    best = Hit {
+                        score: value,
+                        start: (si - 1, sj - 1),
+                        end: (ai, bj),
+                    };
+                }
+            } else {
+                h[cur + j] = 0;
+            }
+        }
+    }
+    (best.score > 0).then_some(best)
+}

@@ -1,0 +1,400 @@
+//! Comparing two pieces: sequences, alignment, and the measures of every shared passage.
+//!
+//! In: two [`Piece`]s (each with its selected melody) and [`AlignParams`]. Out: a
+//! [`Comparison`] holding, for each passage, where it lies in both works (bar labels as
+//! printed, beats, seconds), how many notes, the transposition, the tempo ratio, the score, the
+//! percent melodic identity, agreement shares and the aligned note pairs; and one overall
+//! similarity for the pair.
+//!
+//! Definitions (also in `docs/compare.md`):
+//! - **PMI** (percent melodic identity, after Savage, Cronin, Müllensiefen & Atkinson 2018):
+//!   100 × (notes of A in identical pairs + notes of B in identical pairs) / (notes of A in the
+//!   passage + notes of B in the passage). A pair is identical when the pitch classes agree
+//!   under the passage's transposition. Without fragmentation this equals their formula,
+//!   identical aligned positions over the mean length of the two sequences; with it, a note
+//!   split into two equal notes counts as identical on both sides instead of leaving a gap.
+//! - **Similarity**: the summed scores of the passages over the score the shorter melody would
+//!   get aligned with itself, capped at 1: the share of the shorter melody's possible evidence
+//!   that the shared passages carry.
+
+use crate::align::{align, AlignParams, Alignment, Step};
+use crate::features::Sequence;
+use crate::theory::{key_name, Interval};
+use crate::timeline::{Note, Piece};
+use serde::Serialize;
+
+/// Log-ratio tolerance under which two rhythms count as the same (as in the pair score).
+const RHYTHM_SAME: f64 = 0.1;
+
+/// The result of comparing two pieces.
+#[derive(Debug, Clone, Serialize)]
+pub struct Comparison {
+    /// Shared passages, strongest first.
+    pub passages: Vec<Passage>,
+    /// Overall similarity in [0, 1] (see the module documentation).
+    pub similarity: f64,
+    /// Notes in A's melody.
+    pub notes_a: usize,
+    /// Notes in B's melody.
+    pub notes_b: usize,
+    /// Notes of A's melody inside no passage.
+    pub unmatched_a: usize,
+    /// Notes of B's melody inside no passage.
+    pub unmatched_b: usize,
+}
+
+/// Where a passage lies in one work.
+#[derive(Debug, Clone, Serialize)]
+pub struct PassageSide {
+    /// First and last bar label, as printed.
+    pub bars: [String; 2],
+    /// First and last bar ordinal.
+    pub bar_indices: [usize; 2],
+    /// Beat within the first bar of the first note (1-based, time-signature unit).
+    pub start_beat: f64,
+    /// Beat within the last bar of the last note's onset.
+    pub end_beat: f64,
+    /// Onset of the first note, quarter notes from the start.
+    pub onset_beats: f64,
+    /// End of the last note, quarter notes from the start.
+    pub end_beats: f64,
+    /// Onset of the first note in seconds.
+    pub onset_seconds: f64,
+    /// End of the last note in seconds.
+    pub end_seconds: f64,
+    /// Notes of the melody in the passage.
+    pub notes: usize,
+    /// Index of the first and last melody note.
+    pub note_range: [usize; 2],
+    /// Notes of the passage with no counterpart in the other work.
+    pub unmatched: usize,
+    /// Key signature in force at the start, e.g. `G major`.
+    pub key: Option<String>,
+}
+
+/// Shares of aligned pairs that agree, each in [0, 1].
+#[derive(Debug, Clone, Serialize)]
+pub struct Agreement {
+    /// Same pitch class under the transposition.
+    pub pitch_class: f64,
+    /// Same interval into the note (pairs after the first).
+    pub interval: f64,
+    /// Same inter-onset ratio to the previous note (pairs after the first).
+    pub rhythm: f64,
+    /// Same metric level.
+    pub metric_position: f64,
+}
+
+/// One aligned step, as melody note indices of each work.
+#[derive(Debug, Clone, Serialize)]
+pub struct PairRecord {
+    /// `match` (same pitch class), `mismatch`, `fragmentation`, `consolidation`, `only_a`,
+    /// `only_b`.
+    pub kind: &'static str,
+    /// Melody note indices of A (empty for `only_b`).
+    pub a: Vec<usize>,
+    /// Melody note indices of B (empty for `only_a`).
+    pub b: Vec<usize>,
+    /// Whether the pitch classes agree under the transposition.
+    pub equal: bool,
+}
+
+/// One shared passage.
+#[derive(Debug, Clone, Serialize)]
+pub struct Passage {
+    /// Position in the list, 1 = strongest.
+    pub rank: usize,
+    /// Where it lies in A.
+    pub a: PassageSide,
+    /// Where it lies in B.
+    pub b: PassageSide,
+    /// B relative to A in semitones, octaves included (median over identical pairs).
+    pub transposition_semitones: i32,
+    /// The same as an interval and direction, e.g. `down a minor third`.
+    pub transposition: String,
+    /// How much faster B performs the passage than A: A's seconds over B's, from the first to
+    /// the last aligned onset.
+    pub tempo_ratio: f64,
+    /// B's notated length of the passage over A's, in quarter notes (2 = B in doubled values).
+    pub note_value_ratio: f64,
+    /// Alignment score in points.
+    pub score: i32,
+    /// Percent melodic identity (module documentation).
+    pub pmi: f64,
+    /// Agreement shares.
+    pub agreement: Agreement,
+    /// The alignment path.
+    pub pairs: Vec<PairRecord>,
+}
+
+/// Compares the selected melodies of two pieces.
+pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
+    let seq_a = Sequence::from_piece(a);
+    let seq_b = Sequence::from_piece(b);
+    let alignments = align(&seq_a, &seq_b, params);
+    let passages: Vec<Passage> = alignments
+        .iter()
+        .enumerate()
+        .map(|(i, al)| passage(i + 1, al, a, b, &seq_a, &seq_b))
+        .collect();
+    let self_score = |s: &Sequence| s.len() as f64 * f64::from(params.identical_pair());
+    let shorter = self_score(&seq_a).min(self_score(&seq_b));
+    let total: f64 = 0.0 + passages.iter().map(|p| f64::from(p.score)).sum::<f64>();
+    let similarity = if shorter > 0.0 {
+        (total / shorter).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    let covered = |len: usize, ranges: Vec<(usize, usize)>| {
+        let mut inside = vec![false; len];
+        for (lo, hi) in ranges {
+            for flag in inside.iter_mut().take(hi + 1).skip(lo) {
+                *flag = true;
+            }
+        }
+        inside.iter().filter(|f| !**f).count()
+    };
+    Comparison {
+        similarity,
+        notes_a: seq_a.len(),
+        notes_b: seq_b.len(),
+        unmatched_a: covered(seq_a.len(), alignments.iter().map(|x| x.a_range).collect()),
+        unmatched_b: covered(seq_b.len(), alignments.iter().map(|x| x.b_range).collect()),
+        passages,
+    }
+}
+
+fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {
+    let first: &Note = &piece.melody[range.0];
+    let last: &Note = &piece.melody[range.1];
+    let label = |bar: usize| piece.bars.get(bar).map_or_else(String::new, |b| b.label.clone());
+    let key = {
+        let i = piece
+            .key_signatures
+            .partition_point(|k| k.ticks <= first.onset_ticks);
+        i.checked_sub(1)
+            .and_then(|i| piece.key_signatures.get(i))
+            .map(|k| key_name(k.fifths, k.mode))
+    };
+    PassageSide {
+        bars: [label(first.bar), label(last.bar)],
+        bar_indices: [first.bar, last.bar],
+        start_beat: piece.beat_in_bar(first),
+        end_beat: piece.beat_in_bar(last),
+        onset_beats: first.onset.0,
+        end_beats: last.onset.0 + last.duration.0,
+        onset_seconds: first.onset_seconds.0,
+        end_seconds: last.onset_seconds.0 + last.duration_seconds.0,
+        notes: range.1 - range.0 + 1,
+        note_range: [range.0, range.1],
+        unmatched,
+        key,
+    }
+}
+
+/// Names a transposition: `0` → `same pitch`, `−3` → `down a minor third`.
+pub fn describe_transposition(semitones: i32) -> String {
+    if semitones == 0 {
+        return "at the same pitch".into();
+    }
+    let interval = Interval::from_semitones(semitones.unsigned_abs());
+    let name = match (interval.quality, interval.number) {
+        (_, 1) => "unison".to_string(),
+        (q, n) => {
+            let quality = match q {
+                crate::theory::Quality::Perfect => "perfect",
+                crate::theory::Quality::Major => "major",
+                crate::theory::Quality::Minor => "minor",
+                crate::theory::Quality::Augmented => "augmented",
+                crate::theory::Quality::Diminished => "diminished",
+            };
+            let number = match n {
+                2 => "second".to_string(),
+                3 => "third".into(),
+                4 => "fourth".into(),
+                5 => "fifth".into(),
+                6 => "sixth".into(),
+                7 => "seventh".into(),
+                8 => "octave".into(),
+                n => format!("{}th", n),
+            };
+            if n == 8 {
+                "an octave".to_string()
+            } else {
+                let article = if quality.starts_with(['a', 'e', 'i', 'o', 'u']) {
+                    "an"
+                } else {
+                    "a"
+                };
+                format!("{article} {quality} {number}")
+            }
+        }
+    };
+    let direction = if semitones > 0 { "up" } else { "down" };
+    format!("{direction} {name}")
+}
+
+fn passage(
+    rank: usize,
+    al: &Alignment,
+    a: &Piece,
+    b: &Piece,
+    seq_a: &Sequence,
+    seq_b: &Sequence,
+) -> Passage {
+    let t = al.transposition;
+    let equal = |i: usize, j: usize| {
+        (seq_b.notes[j].pitch_class + 24 - seq_a.notes[i].pitch_class - t) % 12 == 0
+    };
+    let mut pairs = Vec::with_capacity(al.steps.len());
+    // Aligned (a, b) note pairs used for the agreement measures: the first note of each group.
+    let mut aligned: Vec<(usize, usize, bool)> = Vec::new();
+    let mut identical_a = 0usize;
+    let mut identical_b = 0usize;
+    let mut only_a = 0usize;
+    let mut only_b = 0usize;
+    let mut differences: Vec<i32> = Vec::new();
+    for step in &al.steps {
+        let (kind, av, bv, first_a, first_b) = match *step {
+            Step::Pair { a, b } => {
+                let e = equal(a, b);
+                (if e { "match" } else { "mismatch" }, vec![a], vec![b], a, b)
+            }
+            Step::Fragmentation { a, b_first, b_last } => (
+                "fragmentation",
+                vec![a],
+                (b_first..=b_last).collect(),
+                a,
+                b_first,
+            ),
+            Step::Consolidation { a_first, a_last, b } => (
+                "consolidation",
+                (a_first..=a_last).collect(),
+                vec![b],
+                a_first,
+                b,
+            ),
+            Step::OnlyA { a } => {
+                only_a += 1;
+                pairs.push(PairRecord {
+                    kind: "only_a",
+                    a: vec![a],
+                    b: Vec::new(),
+                    equal: false,
+                });
+                continue;
+            }
+            Step::OnlyB { b } => {
+                only_b += 1;
+                pairs.push(PairRecord {
+                    kind: "only_b",
+                    a: Vec::new(),
+                    b: vec![b],
+                    equal: false,
+                });
+                continue;
+            }
+        };
+        let e = equal(first_a, first_b);
+        if e {
+            identical_a += av.len();
+            identical_b += bv.len();
+            differences.push(seq_b.notes[first_b].pitch - seq_a.notes[first_a].pitch);
+        }
+        aligned.push((first_a, first_b, e));
+        pairs.push(PairRecord {
+            kind,
+            a: av,
+            b: bv,
+            equal: e,
+        });
+    }
+    let notes_a = al.a_range.1 - al.a_range.0 + 1;
+    let notes_b = al.b_range.1 - al.b_range.0 + 1;
+    let pmi = 100.0 * (identical_a + identical_b) as f64 / (notes_a + notes_b) as f64;
+
+    differences.sort_unstable();
+    let transposition_semitones = match differences.get(differences.len() / 2) {
+        Some(&d) => d,
+        None => {
+            let t = i32::from(t);
+            if t > 6 {
+                t - 12
+            } else {
+                t
+            }
+        }
+    };
+
+    let share = |count: usize, total: usize| {
+        if total == 0 {
+            0.0
+        } else {
+            count as f64 / total as f64
+        }
+    };
+    let pitch_class = share(aligned.iter().filter(|x| x.2).count(), aligned.len());
+    let later = aligned.get(1..).unwrap_or(&[]);
+    let interval = share(
+        later
+            .iter()
+            .filter(|&&(i, j, _)| {
+                seq_a.notes[i].interval.is_some()
+                    && seq_a.notes[i].interval == seq_b.notes[j].interval
+            })
+            .count(),
+        later.len(),
+    );
+    let rhythm = share(
+        later
+            .iter()
+            .filter(|&&(i, j, _)| {
+                match (seq_a.notes[i].log_ioi_ratio, seq_b.notes[j].log_ioi_ratio) {
+                    (Some(x), Some(y)) => (x - y).abs() <= RHYTHM_SAME,
+                    _ => false,
+                }
+            })
+            .count(),
+        later.len(),
+    );
+    let metric_position = share(
+        aligned
+            .iter()
+            .filter(|&&(i, j, _)| seq_a.notes[i].metric == seq_b.notes[j].metric)
+            .count(),
+        aligned.len(),
+    );
+
+    let (tempo_ratio, note_value_ratio) = match (aligned.first(), aligned.last()) {
+        (Some(&(a0, b0, _)), Some(&(a1, b1, _))) if a1 > a0 && b1 > b0 => {
+            let secs_a = a.melody[a1].onset_seconds.0 - a.melody[a0].onset_seconds.0;
+            let secs_b = b.melody[b1].onset_seconds.0 - b.melody[b0].onset_seconds.0;
+            let beats_a = a.melody[a1].onset.0 - a.melody[a0].onset.0;
+            let beats_b = b.melody[b1].onset.0 - b.melody[b0].onset.0;
+            (
+                if secs_b > 0.0 { secs_a / secs_b } else { 1.0 },
+                if beats_a > 0.0 { beats_b / beats_a } else { 1.0 },
+            )
+        }
+        _ => (1.0, 1.0),
+    };
+
+    Passage {
+        rank,
+        a: side(a, al.a_range, only_a),
+        b: side(b, al.b_range, only_b),
+        transposition_semitones,
+        transposition: describe_transposition(transposition_semitones),
+        tempo_ratio,
+        note_value_ratio,
+        score: al.score,
+        pmi,
+        agreement: Agreement {
+            pitch_class,
+            interval,
+            rhythm,
+            metric_position,
+        },
+        pairs,
+    }
+}

@@ -1,0 +1,238 @@
+//! The `compare` report: a short table of passages for people, or the JSON record
+//! (schema in `docs/compare-json.md`).
+
+use crate::align::AlignParams;
+use crate::compare::{Comparison, Passage};
+use crate::theory::pitch_name;
+use crate::timeline::Piece;
+use serde::Serialize;
+
+/// Version of the compare JSON layout.
+pub const COMPARE_SCHEMA_VERSION: u32 = 1;
+
+/// One input work as the record describes it.
+#[derive(Debug, Serialize)]
+pub struct WorkRecord {
+    /// Path, size, SHA-256, format.
+    pub source: crate::timeline::Provenance,
+    /// Title from the file.
+    pub title: Option<String>,
+    /// Part id of the melody compared.
+    pub part: String,
+    /// What was compared and why.
+    pub selection: String,
+    /// Notes in the melody compared.
+    pub notes: usize,
+    /// Notes inside no passage.
+    pub unmatched_notes: usize,
+    /// Warnings met while reading.
+    pub warnings: Vec<String>,
+}
+
+/// The JSON record of `collatio compare`.
+#[derive(Debug, Serialize)]
+pub struct CompareRecord {
+    /// Layout version.
+    pub schema_version: u32,
+    /// Tool identity.
+    pub tool: super::inspect::ToolInfo,
+    /// Work A.
+    pub a: WorkRecord,
+    /// Work B.
+    pub b: WorkRecord,
+    /// Every alignment parameter used.
+    pub parameters: AlignParams,
+    /// Overall similarity in [0, 1].
+    pub similarity: f64,
+    /// Shared passages, strongest first.
+    pub passages: Vec<Passage>,
+}
+
+fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
+    WorkRecord {
+        source: piece.provenance.clone(),
+        title: piece.title.clone(),
+        part: piece
+            .parts
+            .get(piece.selection.part)
+            .map_or_else(String::new, |p| p.id.clone()),
+        selection: piece.selection.reason.clone(),
+        notes,
+        unmatched_notes: unmatched,
+        warnings: piece.warnings.clone(),
+    }
+}
+
+/// Builds the record.
+pub fn record(a: &Piece, b: &Piece, params: &AlignParams, result: &Comparison) -> CompareRecord {
+    CompareRecord {
+        schema_version: COMPARE_SCHEMA_VERSION,
+        tool: super::inspect::ToolInfo {
+            name: "collatio",
+            version: env!("CARGO_PKG_VERSION"),
+        },
+        a: work(a, result.notes_a, result.unmatched_a),
+        b: work(b, result.notes_b, result.unmatched_b),
+        parameters: params.clone(),
+        similarity: result.similarity,
+        passages: result.passages.clone(),
+    }
+}
+
+fn bars(side: &crate::compare::PassageSide) -> String {
+    if side.bars[0] == side.bars[1] {
+        format!("bar {}", side.bars[0])
+    } else {
+        format!("bars {}-{}", side.bars[0], side.bars[1])
+    }
+}
+
+fn fmt_beat(value: f64) -> String {
+    let text = format!("{value:.2}");
+    text.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
+fn note_name(piece: &Piece, index: usize) -> String {
+    piece.melody.get(index).map_or_else(String::new, |n| match &n.spelling {
+        Some(s) => s.name(),
+        None => pitch_name(n.pitch.0),
+    })
+}
+
+/// The human listing.
+pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
+    let mut out = String::new();
+    let describe = |tag: &str, piece: &Piece, notes: usize| {
+        let title = piece
+            .title
+            .as_ref()
+            .map_or_else(String::new, |t| format!(" \"{t}\""));
+        format!(
+            "{tag}  {}{title}\n   {}; {notes} notes\n",
+            piece.provenance.path, piece.selection.reason
+        )
+    };
+    out.push_str(&describe("A", a, result.notes_a));
+    out.push_str(&describe("B", b, result.notes_b));
+    out.push('\n');
+    out.push_str(&format!(
+        "similarity {:.2} (0 = nothing shared, 1 = the shorter melody entirely shared); {} passage{}\n",
+        result.similarity,
+        result.passages.len(),
+        if result.passages.len() == 1 { "" } else { "s" }
+    ));
+    if result.passages.is_empty() {
+        out.push_str("\nNo shared passage reaches the reporting threshold.\n");
+        return out;
+    }
+    out.push_str(&format!(
+        "\n {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>8}  {:>5}  {:>5}\n",
+        "#", "in A", "in B", "notes A/B", "B relative to A", "tempo", "score", "PMI"
+    ));
+    for p in &result.passages {
+        out.push_str(&format!(
+            " {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>7.2}x  {:>5}  {:>5.1}\n",
+            p.rank,
+            bars(&p.a),
+            bars(&p.b),
+            format!("{}/{}", p.a.notes, p.b.notes),
+            p.transposition,
+            p.tempo_ratio,
+            p.score,
+            p.pmi
+        ));
+    }
+    out.push_str(
+        "\n tempo: how much faster B performs the passage; PMI: percent melodic identity \
+         (identical notes after transposing, both sides counted)\n",
+    );
+    for p in &result.passages {
+        out.push_str(&render_passage(a, b, p));
+    }
+    out
+}
+
+/// One passage: where, then the aligned notes in rows with a marker line.
+fn render_passage(a: &Piece, b: &Piece, p: &Passage) -> String {
+    let mut out = format!(
+        "\nPassage {}: A {} (beat {} to beat {}) and B {} (beat {} to beat {})\n",
+        p.rank,
+        bars(&p.a),
+        fmt_beat(p.a.start_beat),
+        fmt_beat(p.a.end_beat),
+        bars(&p.b),
+        fmt_beat(p.b.start_beat),
+        fmt_beat(p.b.end_beat),
+    );
+    let keys = match (&p.a.key, &p.b.key) {
+        (Some(x), Some(y)) => format!(" (A in {x}, B in {y})"),
+        _ => String::new(),
+    };
+    out.push_str(&format!(
+        "  B is {}{keys}; B's notes last {} times A's; pitch classes agree {:.0}%, intervals {:.0}%, rhythm {:.0}%, metric position {:.0}%\n",
+        p.transposition,
+        fmt_beat(p.note_value_ratio),
+        100.0 * p.agreement.pitch_class,
+        100.0 * p.agreement.interval,
+        100.0 * p.agreement.rhythm,
+        100.0 * p.agreement.metric_position
+    ));
+    let mut cells: Vec<(String, String, char)> = Vec::new();
+    for pair in &p.pairs {
+        let join = |piece: &Piece, notes: &[usize]| {
+            notes
+                .iter()
+                .map(|&i| note_name(piece, i))
+                .collect::<Vec<_>>()
+                .join("+")
+        };
+        let mark = match pair.kind {
+            "match" => '=',
+            "mismatch" => 'x',
+            "fragmentation" | "consolidation" => {
+                if pair.equal {
+                    '~'
+                } else {
+                    'x'
+                }
+            }
+            _ => '-',
+        };
+        let left = if pair.a.is_empty() {
+            ".".to_string()
+        } else {
+            join(a, &pair.a)
+        };
+        let right = if pair.b.is_empty() {
+            ".".to_string()
+        } else {
+            join(b, &pair.b)
+        };
+        cells.push((left, right, mark));
+    }
+    const ROW_WIDTH: usize = 76;
+    let mut i = 0;
+    while i < cells.len() {
+        let mut width = 4;
+        let mut j = i;
+        while j < cells.len() {
+            let w = cells[j].0.len().max(cells[j].1.len()) + 1;
+            if width + w > ROW_WIDTH && j > i {
+                break;
+            }
+            width += w;
+            j += 1;
+        }
+        let (mut ra, mut rb, mut rm) = (String::from("  A "), String::from("  B "), String::from("    "));
+        for (x, y, m) in &cells[i..j] {
+            let w = x.len().max(y.len());
+            ra.push_str(&format!("{x:<w$} "));
+            rb.push_str(&format!("{y:<w$} "));
+            rm.push_str(&format!("{:<w$} ", m.to_string()));
+        }
+        out.push_str(&format!("{}\n{}\n{}\n", ra.trim_end(), rb.trim_end(), rm.trim_end()));
+        i = j;
+    }
+    out.push_str("  = same note after transposing, x different, ~ one note split into repeated notes, - no counterpart\n");
+    out
+}
