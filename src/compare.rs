@@ -13,8 +13,9 @@
 //!   under the passage's transposition. Without fragmentation this equals their formula,
 //!   identical aligned positions over the mean length of the two sequences; with it, a note
 //!   split into two equal notes counts as identical on both sides instead of leaving a gap.
-//! - **Similarity**: the summed scores of the passages over the score the shorter melody would
-//!   get aligned with itself, capped at 1: the share of the shorter melody's possible evidence
+//! - **Similarity**: the passages' scores, each counted only for the notes of the shorter melody
+//!   that no stronger passage already covers, over the score the shorter melody would get
+//!   aligned with itself, capped to [0, 1]: the share of the shorter melody's possible evidence
 //!   that the shared passages carry.
 
 use crate::align::{align, AlignParams, Alignment, Step};
@@ -137,14 +138,7 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         .enumerate()
         .map(|(i, al)| passage(i + 1, al, a, b, &seq_a, &seq_b))
         .collect();
-    let self_score = |s: &Sequence| s.len() as f64 * f64::from(params.identical_pair());
-    let shorter = self_score(&seq_a).min(self_score(&seq_b));
-    let total: f64 = 0.0 + passages.iter().map(|p| f64::from(p.score)).sum::<f64>();
-    let similarity = if shorter > 0.0 {
-        (total / shorter).clamp(0.0, 1.0)
-    } else {
-        0.0
-    };
+    let similarity = similarity(&alignments, seq_a.len(), seq_b.len(), params);
     let covered = |len: usize, ranges: Vec<(usize, usize)>| {
         let mut inside = vec![false; len];
         for (lo, hi) in ranges {
@@ -162,6 +156,33 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         unmatched_b: covered(seq_b.len(), alignments.iter().map(|x| x.b_range).collect()),
         passages,
     }
+}
+
+/// Overall similarity: the passages' scores, each counted only for the notes of the shorter
+/// melody that no stronger passage already covers, over the score of the shorter melody
+/// aligned with itself; capped to [0, 1].
+fn similarity(alignments: &[Alignment], len_a: usize, len_b: usize, params: &AlignParams) -> f64 {
+    let a_is_shorter = len_a <= len_b;
+    let shorter = len_a.min(len_b);
+    let best = shorter as f64 * f64::from(params.identical_pair());
+    if best <= 0.0 {
+        return 0.0;
+    }
+    let mut covered = vec![false; shorter];
+    let mut total = 0.0;
+    for al in alignments {
+        let (lo, hi) = if a_is_shorter { al.a_range } else { al.b_range };
+        let hi = hi.min(shorter.saturating_sub(1));
+        if lo > hi {
+            continue;
+        }
+        let fresh = covered[lo..=hi].iter().filter(|c| !**c).count();
+        total += f64::from(al.score) * fresh as f64 / (hi - lo + 1) as f64;
+        for c in &mut covered[lo..=hi] {
+            *c = true;
+        }
+    }
+    (total / best).clamp(0.0, 1.0)
 }
 
 fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {

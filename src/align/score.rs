@@ -12,6 +12,9 @@
 //! Fragmentation and consolidation (Mongeau & Sankoff 1990): one note against two or three
 //! consecutive notes of one pitch (as when different lyrics split a note), scored as one pair
 //! whose rhythm uses the summed inter-onset interval, minus a small penalty per extra note.
+//! As in Mongeau & Sankoff, the repeated notes must fill the one note's time: in tempo-free
+//! terms, the group's inter-onset ratio to the note before it must equal the single note's
+//! (within the "same rhythm" tolerance); otherwise the move is not allowed.
 
 use super::AlignParams;
 use crate::features::{SeqNote, Sequence};
@@ -141,6 +144,15 @@ fn rhythm_term(params: &AlignParams, a: Option<f64>, b: Option<f64>) -> i32 {
     }
 }
 
+/// Whether a group of repeated notes fills the time of the single note it stands for: equal
+/// inter-onset ratios to the preceding note, or no preceding note to compare with.
+fn durations_agree(a: Option<f64>, b: Option<f64>) -> bool {
+    match (a, b) {
+        (Some(x), Some(y)) => (x - y).abs() <= RHYTHM_SAME,
+        _ => true,
+    }
+}
+
 fn interval_term(params: &AlignParams, a: Option<i32>, b: Option<i32>) -> i32 {
     match (a, b) {
         (Some(x), Some(y)) if x == y => params.interval_match,
@@ -236,7 +248,11 @@ impl Scorer {
             return None;
         }
         let first = j + 1 - k;
-        let rhythm = self.rhythm_of(self.a.log_ratio[i], self.b.group_log_ratio(first, j));
+        let group = self.b.group_log_ratio(first, j);
+        if !durations_agree(self.a.log_ratio[i], group) {
+            return None;
+        }
+        let rhythm = self.rhythm_of(self.a.log_ratio[i], group);
         let interval = self.interval
             [self.a.interval[i] as usize * self.interval_codes + self.b.interval[first] as usize];
         let metric = if self.a.metric[i] == self.b.metric[first] {
@@ -256,7 +272,11 @@ impl Scorer {
             return None;
         }
         let first = i + 1 - k;
-        let rhythm = self.rhythm_of(self.a.group_log_ratio(first, i), self.b.log_ratio[j]);
+        let group = self.a.group_log_ratio(first, i);
+        if !durations_agree(group, self.b.log_ratio[j]) {
+            return None;
+        }
+        let rhythm = self.rhythm_of(group, self.b.log_ratio[j]);
         let interval = self.interval
             [self.a.interval[first] as usize * self.interval_codes + self.b.interval[j] as usize];
         let metric = if self.a.metric[first] == self.b.metric[j] {
