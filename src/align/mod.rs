@@ -177,8 +177,10 @@ pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment>
     let scorer = Scorer::new(a, b, params);
     let mut blocked = Blocked::default();
     // Best hit per transposition, and whether it was computed with the current blocks.
-    let mut hits: Vec<(Option<Hit>, bool)> = (0..12u8)
-        .map(|t| (scan::scan(&scorer, params, t, &blocked), true))
+    let all: Vec<u8> = (0..12).collect();
+    let mut hits: Vec<(Option<Hit>, bool)> = scan::scan_many(&scorer, params, &all, &blocked)
+        .into_iter()
+        .map(|hit| (hit, true))
         .collect();
     let mut out = Vec::new();
     let mut guard = 0usize;

@@ -62,125 +62,205 @@ fn unpack(origin: u64) -> (usize, usize) {
     ((origin >> 32) as usize, (origin & 0xffff_ffff) as usize)
 }
 
-/// Scans all cells under transposition `t` and returns the best-scoring local alignment
-/// avoiding `blocked`, or `None` when no cell scores above zero.
-pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Blocked) -> Option<Hit> {
+/// The dynamic-programming state of one transposition: rolling rows of H with path origins,
+/// the F column, and the best cell so far.
+struct Lane {
+    t: u8,
+    h: Vec<i32>,
+    origin: Vec<u64>,
+    f: Vec<i32>,
+    f_origin: Vec<u64>,
+    best: Hit,
+    /// Pitch term by pitch class of B for the current row.
+    pitch_of_b: [i32; 12],
+}
+
+impl Lane {
+    fn new(t: u8, width: usize) -> Lane {
+        Lane {
+            t,
+            h: vec![0; 4 * width],
+            origin: vec![0; 4 * width],
+            f: vec![NEG; width],
+            f_origin: vec![0; width],
+            best: Hit {
+                score: 0,
+                start: (0, 0),
+                end: (0, 0),
+            },
+            pitch_of_b: [0; 12],
+        }
+    }
+}
+
+/// Scans all cells under each transposition in `ts` and returns, per transposition, the
+/// best-scoring local alignment avoiding `blocked` (`None` when no cell scores above zero).
+///
+/// Rows are shared by the transpositions: the transposition-free part of the pair score
+/// (interval, rhythm, metre) is computed once per cell, the pitch term is one lookup.
+pub(crate) fn scan_many(
+    scorer: &Scorer,
+    params: &AlignParams,
+    ts: &[u8],
+    blocked: &Blocked,
+) -> Vec<Option<Hit>> {
     let n = scorer.a.len();
     let m = scorer.b.len();
     if n == 0 || m == 0 {
-        return None;
+        return vec![None; ts.len()];
     }
+    let width = m + 1;
+    let mut lanes: Vec<Lane> = ts.iter().map(|&t| Lane::new(t, width)).collect();
+    let mut mask: Vec<bool> = Vec::new();
+    let mut context = vec![0i32; m];
+    let pc_b = &scorer.b.pc;
+    for i in 1..=n {
+        let ai = i - 1;
+        let masked = blocked.row_mask(ai, m, &mut mask);
+        for (bj, c) in context.iter_mut().enumerate() {
+            *c = scorer.context(ai, bj);
+        }
+        for lane in &mut lanes {
+            for (pc, value) in lane.pitch_of_b.iter_mut().enumerate() {
+                *value = scorer.pitch_by_class(ai, pc as u8, lane.t);
+            }
+            scan_row(scorer, params, lane, i, &context, pc_b, masked.then_some(&mask[..]));
+        }
+    }
+    lanes
+        .into_iter()
+        .map(|lane| (lane.best.score > 0).then_some(lane.best))
+        .collect()
+}
+
+/// Scans all cells under transposition `t`; see [`scan_many`].
+pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Blocked) -> Option<Hit> {
+    scan_many(scorer, params, &[t], blocked).pop().flatten()
+}
+
+/// One row of the recurrence for one transposition.
+#[inline(always)]
+fn scan_row(
+    scorer: &Scorer,
+    params: &AlignParams,
+    lane: &mut Lane,
+    i: usize,
+    context: &[i32],
+    pc_b: &[u8],
+    mask: Option<&[bool]>,
+) {
+    let m = context.len();
+    let width = m + 1;
     let open = params.gap_open;
     let extend = params.gap_extend;
     let max_k = scorer.max_fragments;
-    let width = m + 1;
-    let mut h = vec![0i32; 4 * width];
-    let mut origin = vec![0u64; 4 * width];
-    let mut f = vec![NEG; width];
-    let mut f_origin = vec![0u64; width];
-    let mut mask: Vec<bool> = Vec::new();
-    let mut best = Hit {
-        score: 0,
-        start: (0, 0),
-        end: (0, 0),
-    };
-
-    for i in 1..=n {
-        let cur = (i % 4) * width;
-        let up = ((i - 1) % 4) * width;
-        let ai = i - 1;
-        let masked = blocked.row_mask(ai, m, &mut mask);
-        let run_a = (scorer.a.run[ai] as usize).min(max_k).min(i);
-        h[cur] = 0;
-        let mut e = NEG;
-        let mut e_origin = 0u64;
-        for j in 1..=m {
-            let bj = j - 1;
-            if masked && mask[bj] {
-                h[cur + j] = 0;
-                f[j] = NEG;
-                e = NEG;
-                continue;
-            }
-            // Gap in A: b_j left unmatched, from the left.
-            let from_h = h[cur + j - 1] - open;
-            let from_e = e - extend;
-            if from_h >= from_e {
-                e = from_h;
-                e_origin = origin[cur + j - 1];
-            } else {
-                e = from_e;
-            }
-            // Gap in B: a_i left unmatched, from above.
-            let from_h = h[up + j] - open;
-            let from_f = f[j] - extend;
-            if from_h >= from_f {
-                f[j] = from_h;
-                f_origin[j] = origin[up + j];
-            } else {
-                f[j] = from_f;
-            }
-            // Match or mismatch on the diagonal.
-            let diag = h[up + j - 1];
-            let mut value = diag + scorer.pair(ai, bj, t);
-            let mut from = if diag > 0 {
-                origin[up + j - 1]
-            } else {
-                pack(i, j)
-            };
-            if e > value {
-                value = e;
-                from = e_origin;
-            }
-            if f[j] > value {
-                value = f[j];
-                from = f_origin[j];
-            }
-            // Fragmentation: a_i against b_{j-k+1..=j}.
-            let run_b = (scorer.b.run[bj] as usize).min(max_k).min(j);
-            for k in 2..=run_b {
-                if let Some(s) = scorer.fragment(ai, bj, k, t) {
-                    let prev = h[up + j - k];
-                    if prev + s > value {
-                        value = prev + s;
-                        from = if prev > 0 {
-                            origin[up + j - k]
-                        } else {
-                            pack(i, j - k + 1)
-                        };
-                    }
-                }
-            }
-            // Consolidation: a_{i-k+1..=i} against b_j.
-            for k in 2..=run_a {
-                if let Some(s) = scorer.consolidate(ai, bj, k, t) {
-                    let row = ((i - k) % 4) * width;
-                    let prev = h[row + j - 1];
-                    if prev + s > value {
-                        value = prev + s;
-                        from = if prev > 0 {
-                            origin[row + j - 1]
-                        } else {
-                            pack(i - k + 1, j)
-                        };
-                    }
-                }
-            }
-            if value > 0 {
-                h[cur + j] = value;
-                origin[cur + j] = from;
-                if value > best.score {
-                    let (si, sj) = unpack(from);
-                    best = Hit {
-                        score: value,
-                        start: (si - 1, sj - 1),
-                        end: (ai, bj),
+    let t = lane.t;
+    let cur = (i % 4) * width;
+    let up = ((i - 1) % 4) * width;
+    let ai = i - 1;
+    let run_a = (scorer.a.run[ai] as usize).min(max_k).min(i);
+    let Lane {
+        h,
+        origin,
+        f,
+        f_origin,
+        best,
+        pitch_of_b,
+        ..
+    } = lane;
+    h[cur] = 0;
+    let mut e = NEG;
+    let mut e_origin = 0u64;
+    let mut left = 0i32;
+    for j in 1..=m {
+        let bj = j - 1;
+        if mask.is_some_and(|mask| mask[bj]) {
+            h[cur + j] = 0;
+            f[j] = NEG;
+            e = NEG;
+            left = 0;
+            continue;
+        }
+        // Gap in A: b_j left unmatched, from the left.
+        let from_h = left - open;
+        let from_e = e - extend;
+        if from_h >= from_e {
+            e = from_h;
+            e_origin = origin[cur + j - 1];
+        } else {
+            e = from_e;
+        }
+        // Gap in B: a_i left unmatched, from above.
+        let above = h[up + j];
+        let from_h = above - open;
+        let from_f = f[j] - extend;
+        if from_h >= from_f {
+            f[j] = from_h;
+            f_origin[j] = origin[up + j];
+        } else {
+            f[j] = from_f;
+        }
+        // Match or mismatch on the diagonal.
+        let diag = h[up + j - 1];
+        let mut value = diag + context[bj] + pitch_of_b[pc_b[bj] as usize];
+        let mut from = if diag > 0 {
+            origin[up + j - 1]
+        } else {
+            pack(i, j)
+        };
+        if e > value {
+            value = e;
+            from = e_origin;
+        }
+        if f[j] > value {
+            value = f[j];
+            from = f_origin[j];
+        }
+        // Fragmentation: a_i against b_{j-k+1..=j}.
+        let run_b = (scorer.b.run[bj] as usize).min(max_k).min(j);
+        for k in 2..=run_b {
+            if let Some(s) = scorer.fragment(ai, bj, k, t) {
+                let prev = h[up + j - k];
+                if prev + s > value {
+                    value = prev + s;
+                    from = if prev > 0 {
+                        origin[up + j - k]
+                    } else {
+                        pack(i, j - k + 1)
                     };
                 }
-            } else {
-                h[cur + j] = 0;
             }
         }
+        // Consolidation: a_{i-k+1..=i} against b_j.
+        for k in 2..=run_a {
+            if let Some(s) = scorer.consolidate(ai, bj, k, t) {
+                let row = ((i - k) % 4) * width;
+                let prev = h[row + j - 1];
+                if prev + s > value {
+                    value = prev + s;
+                    from = if prev > 0 {
+                        origin[row + j - 1]
+                    } else {
+                        pack(i - k + 1, j)
+                    };
+                }
+            }
+        }
+        if value > 0 {
+            h[cur + j] = value;
+            origin[cur + j] = from;
+            left = value;
+            if value > best.score {
+                let (si, sj) = unpack(from);
+                *best = Hit {
+                    score: value,
+                    start: (si - 1, sj - 1),
+                    end: (ai, bj),
+                };
+            }
+        } else {
+            h[cur + j] = 0;
+            left = 0;
+        }
     }
-    (best.score > 0).then_some(best)
 }

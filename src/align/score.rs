@@ -230,6 +230,12 @@ impl Scorer {
     }
 
 
+    /// Pitch term of a_i against any note of pitch class `pc` under `t`.
+    #[inline(always)]
+    pub fn pitch_by_class(&self, i: usize, pc: u8, t: u8) -> i32 {
+        self.pitch[((pc + 24 - self.a.pc[i] - t) % 12) as usize]
+    }
+
     /// Full score of the pair (i, j) under `t`.
     #[inline(always)]
     pub fn pair(&self, i: usize, j: usize, t: u8) -> i32 {
