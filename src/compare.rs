@@ -188,7 +188,12 @@ fn similarity(alignments: &[Alignment], len_a: usize, len_b: usize, params: &Ali
 fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {
     let first: &Note = &piece.melody[range.0];
     let last: &Note = &piece.melody[range.1];
-    let label = |bar: usize| piece.bars.get(bar).map_or_else(String::new, |b| b.label.clone());
+    let label = |bar: usize| {
+        piece
+            .bars
+            .get(bar)
+            .map_or_else(String::new, |b| b.label.clone())
+    };
     let key = {
         let i = piece
             .key_signatures
@@ -394,7 +399,11 @@ fn passage(
             let beats_b = b.melody[b1].onset.0 - b.melody[b0].onset.0;
             (
                 if secs_b > 0.0 { secs_a / secs_b } else { 1.0 },
-                if beats_a > 0.0 { beats_b / beats_a } else { 1.0 },
+                if beats_a > 0.0 {
+                    beats_b / beats_a
+                } else {
+                    1.0
+                },
             )
         }
         _ => (1.0, 1.0),

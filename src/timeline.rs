@@ -390,5 +390,6 @@ impl Piece {
 
 /// The index of the last bar starting at or before `ticks` (0 when before the first).
 pub fn bar_index_at(bars: &[Bar], ticks: i64) -> usize {
-    bars.partition_point(|b| b.start_ticks <= ticks).saturating_sub(1)
+    bars.partition_point(|b| b.start_ticks <= ticks)
+        .saturating_sub(1)
 }

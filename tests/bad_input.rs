@@ -26,15 +26,23 @@ fn expect_error(path: &str, extra: &[&str], code: i32, phrase: &str) {
     let out = collatio(&args);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(code), "{path}: stderr was {stderr}");
-    assert!(stderr.contains(path), "{path}: message does not name the file: {stderr}");
-    assert!(stderr.contains(phrase), "{path}: expected '{phrase}' in: {stderr}");
+    assert!(
+        stderr.contains(path),
+        "{path}: message does not name the file: {stderr}"
+    );
+    assert!(
+        stderr.contains(phrase),
+        "{path}: expected '{phrase}' in: {stderr}"
+    );
     assert!(!stderr.contains("panicked"), "{stderr}");
 }
 
 fn valid_midi() -> Vec<u8> {
     // SMF 1.0 header: MThd, length 6, format 0, one track, 96 ticks per quarter.
     let mut bytes = b"MThd\0\0\0\x06\0\0\0\x01\0\x60MTrk".to_vec();
-    let track = [0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00];
+    let track = [
+        0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00,
+    ];
     bytes.extend_from_slice(&(track.len() as u32).to_be_bytes());
     bytes.extend_from_slice(&track);
     bytes
@@ -55,7 +63,11 @@ fn missing_file() {
 #[test]
 fn text_named_as_midi() {
     let dir = tempfile::tempdir().unwrap();
-    let p = write(dir.path(), "letter.mid", b"Dear colleague, please find attached");
+    let p = write(
+        dir.path(),
+        "letter.mid",
+        b"Dear colleague, please find attached",
+    );
     expect_error(&p, &[], 3, "not a MIDI or MusicXML file");
 }
 
@@ -78,7 +90,10 @@ fn midi_track_length_beyond_the_file() {
     // The note that is there is read, and the short chunk is reported (exit 1: partly read).
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(1), "{stderr}");
-    assert!(stderr.contains("track 1 at byte 14: chunk length 4096 exceeds"), "{stderr}");
+    assert!(
+        stderr.contains("track 1 at byte 14: chunk length 4096 exceeds"),
+        "{stderr}"
+    );
     assert!(stderr.contains(&p), "{stderr}");
 }
 
@@ -159,7 +174,11 @@ fn zip_bomb_is_refused() {
 #[test]
 fn mxl_that_is_not_a_zip() {
     let dir = tempfile::tempdir().unwrap();
-    let p = write(dir.path(), "fake.mxl", b"PK\x03\x04 this is not really a zip archive");
+    let p = write(
+        dir.path(),
+        "fake.mxl",
+        b"PK\x03\x04 this is not really a zip archive",
+    );
     expect_error(&p, &[], 3, "mxl:");
 }
 

@@ -84,7 +84,8 @@ fn compare(file: &str) {
     let golden_path = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("tests/golden")
         .join(format!("{file}.json"));
-    let golden: Value = serde_json::from_str(&std::fs::read_to_string(&golden_path).unwrap()).unwrap();
+    let golden: Value =
+        serde_json::from_str(&std::fs::read_to_string(&golden_path).unwrap()).unwrap();
     assert_eq!(golden["generator"], "tests/golden/music21_reading.py");
     let midi = golden["kind"] == "midi";
     let piece = read_file(&common::fixture(file), &ReadOptions::default())
@@ -105,7 +106,10 @@ fn compare(file: &str) {
             assert_eq!(g.midi, e.midi, "pitch, {at}");
             assert!((g.onset - e.onset).abs() < BEAT_TOLERANCE, "onset, {at}");
             if file != RESTRIKE_FIXTURE {
-                assert!((g.duration - e.duration).abs() < BEAT_TOLERANCE, "duration, {at}");
+                assert!(
+                    (g.duration - e.duration).abs() < BEAT_TOLERANCE,
+                    "duration, {at}"
+                );
             }
             assert_eq!(g.bar, e.bar, "bar label, {at}");
         }
@@ -155,14 +159,23 @@ fn every_fixture_is_covered() {
         let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
         if matches!(ext, "mid" | "musicxml" | "mxl") {
             let name = path.file_name().unwrap().to_str().unwrap().to_string();
-            let golden = path.parent().unwrap().parent().unwrap().join("golden").join(format!("{name}.json"));
+            let golden = path
+                .parent()
+                .unwrap()
+                .parent()
+                .unwrap()
+                .join("golden")
+                .join(format!("{name}.json"));
             let source = include_str!("music21_golden.rs");
             if !golden.exists() || !source.contains(&format!("=> \"{name}\"")) {
                 missing.push(name);
             }
         }
     }
-    assert!(missing.is_empty(), "fixtures without a golden comparison: {missing:?}");
+    assert!(
+        missing.is_empty(),
+        "fixtures without a golden comparison: {missing:?}"
+    );
 }
 
 /// The re-struck fixture under collatio's own pairing rule (first in, first out), checked

@@ -2,8 +2,8 @@
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
 mod common;
-use common::{notes_of, one_part, read_xml, read_xml_with};
 use collatio::ingest::ReadOptions;
+use common::{notes_of, one_part, read_xml, read_xml_with};
 
 fn note(step: &str, octave: i32, duration: u32, extra: &str) -> String {
     format!(
@@ -85,7 +85,10 @@ fn backup_forward_and_chords() {
             (2.0, 2.0, 72.0)
         ]
     );
-    assert_eq!(piece.parts[0].voices, vec!["1".to_string(), "2".to_string()]);
+    assert_eq!(
+        piece.parts[0].voices,
+        vec!["1".to_string(), "2".to_string()]
+    );
     // The melody keeps the top line: E5, then C5 (the G3 starts under the held E5).
     let melody: Vec<f64> = piece.melody.iter().map(|n| n.pitch.0).collect();
     assert_eq!(melody, vec![76.0, 72.0]);
@@ -191,7 +194,10 @@ fn grace_notes_are_ornaments() {
         note("D", 5, 2, "")
     ));
     let piece = read_xml(&xml).unwrap();
-    assert_eq!(notes_of(&piece, 0), vec![(0.0, 2.0, 72.0), (2.0, 2.0, 74.0)]);
+    assert_eq!(
+        notes_of(&piece, 0),
+        vec![(0.0, 2.0, 72.0), (2.0, 2.0, 74.0)]
+    );
     assert_eq!(piece.ornaments.len(), 1);
     assert_eq!(piece.ornaments[0].pitch.0, 71.0);
 }

@@ -77,7 +77,10 @@ fn mutated_fixtures_never_panic() {
         }
     }
     // Damage must be noticed at least sometimes: a reader that accepts everything is broken.
-    assert!(errors > 0 && errors < total, "{errors} errors in {total} cases");
+    assert!(
+        errors > 0 && errors < total,
+        "{errors} errors in {total} cases"
+    );
 }
 
 #[test]

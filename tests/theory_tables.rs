@@ -76,13 +76,21 @@ fn equal_temperament_matches_the_piano_key_table() {
     ];
     let a4 = Hz(DEFAULT_REFERENCE_HZ);
     for (midi, hz) in table {
-        assert_abs_diff_eq!(frequency_of(MidiPitch(midi), a4).0, hz, epsilon = TABLE_PRECISION_HZ);
+        assert_abs_diff_eq!(
+            frequency_of(MidiPitch(midi), a4).0,
+            hz,
+            epsilon = TABLE_PRECISION_HZ
+        );
         let back = midi_of_frequency(Hz(hz), a4).unwrap();
         // The table's 0.0005 Hz rounding is at most 0.11 cents at 8.176 Hz.
         assert_abs_diff_eq!(back.0, midi, epsilon = 1.2e-3);
     }
     // A configurable reference: with A4 = 442 Hz, A4 is 442 Hz and A5 twice that.
-    assert_abs_diff_eq!(frequency_of(MidiPitch(81.0), Hz(442.0)).0, 884.0, epsilon = 1e-9);
+    assert_abs_diff_eq!(
+        frequency_of(MidiPitch(81.0), Hz(442.0)).0,
+        884.0,
+        epsilon = 1e-9
+    );
     assert!(midi_of_frequency(Hz(0.0), a4).is_none());
 }
 
@@ -90,9 +98,21 @@ fn equal_temperament_matches_the_piano_key_table() {
 /// is 701.96 cents (standard tuning tables).
 #[test]
 fn cents_of_just_intervals() {
-    assert_abs_diff_eq!(cents_between(Hz(400.0), Hz(500.0)).0, 386.31, epsilon = 0.005);
-    assert_abs_diff_eq!(cents_between(Hz(200.0), Hz(300.0)).0, 701.96, epsilon = 0.005);
-    assert_abs_diff_eq!(cents_between(Hz(220.0), Hz(440.0)).0, 1200.0, epsilon = 1e-9);
+    assert_abs_diff_eq!(
+        cents_between(Hz(400.0), Hz(500.0)).0,
+        386.31,
+        epsilon = 0.005
+    );
+    assert_abs_diff_eq!(
+        cents_between(Hz(200.0), Hz(300.0)).0,
+        701.96,
+        epsilon = 0.005
+    );
+    assert_abs_diff_eq!(
+        cents_between(Hz(220.0), Hz(440.0)).0,
+        1200.0,
+        epsilon = 1e-9
+    );
 }
 
 /// MIDI 1.0 Detailed Specification: note number 60 is middle C; collatio names it C4
@@ -112,7 +132,11 @@ fn midi_note_names() {
 /// the octave boundary cases B#3 = C4 and Cb4 = B3 (common practice).
 #[test]
 fn spelled_pitches() {
-    let s = |step, alter, octave| Spelling { step, alter, octave };
+    let s = |step, alter, octave| Spelling {
+        step,
+        alter,
+        octave,
+    };
     assert_eq!(s(Step::C, 0.0, 4).midi(), 60.0);
     assert_eq!(s(Step::B, 1.0, 3).midi(), 60.0);
     assert_eq!(s(Step::C, -1.0, 4).midi(), 59.0);

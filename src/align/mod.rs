@@ -239,8 +239,18 @@ fn span(steps: &[Step], side_a: bool) -> Option<(usize, usize)> {
         let (first, last) = match (*step, side_a) {
             (Step::Pair { a, .. }, true) | (Step::Fragmentation { a, .. }, true) => (a, a),
             (Step::Pair { b, .. }, false) | (Step::Consolidation { b, .. }, false) => (b, b),
-            (Step::Consolidation { a_first, a_last, .. }, true) => (a_first, a_last),
-            (Step::Fragmentation { b_first, b_last, .. }, false) => (b_first, b_last),
+            (
+                Step::Consolidation {
+                    a_first, a_last, ..
+                },
+                true,
+            ) => (a_first, a_last),
+            (
+                Step::Fragmentation {
+                    b_first, b_last, ..
+                },
+                false,
+            ) => (b_first, b_last),
             (Step::OnlyA { a }, true) => (a, a),
             (Step::OnlyB { b }, false) => (b, b),
             _ => continue,

@@ -37,7 +37,11 @@ impl Blocked {
                     mask.resize(m, false);
                     any = true;
                 }
-                for cell in mask.iter_mut().take(b1.min(m.saturating_sub(1)) + 1).skip(b0) {
+                for cell in mask
+                    .iter_mut()
+                    .take(b1.min(m.saturating_sub(1)) + 1)
+                    .skip(b0)
+                {
                     *cell = true;
                 }
             }
@@ -124,7 +128,15 @@ pub(crate) fn scan_many(
             for (pc, value) in lane.pitch_of_b.iter_mut().enumerate() {
                 *value = scorer.pitch_by_class(ai, pc as u8, lane.t);
             }
-            scan_row(scorer, params, lane, i, &context, pc_b, masked.then_some(&mask[..]));
+            scan_row(
+                scorer,
+                params,
+                lane,
+                i,
+                &context,
+                pc_b,
+                masked.then_some(&mask[..]),
+            );
         }
     }
     lanes

@@ -172,9 +172,7 @@ impl Scorer {
         pitch[11] = params.pitch_near;
 
         let interval_codes = (2 * MAX_INTERVAL + 2) as usize;
-        let decode_interval = |c: usize| {
-            (c != NONE_CODE).then(|| c as i32 - MAX_INTERVAL - 1)
-        };
+        let decode_interval = |c: usize| (c != NONE_CODE).then(|| c as i32 - MAX_INTERVAL - 1);
         let mut interval = vec![0; interval_codes * interval_codes];
         for ca in 0..interval_codes {
             for cb in 0..interval_codes {
@@ -184,8 +182,7 @@ impl Scorer {
         }
         let rhythm_codes = (2.0 * RHYTHM_CLAMP * RHYTHM_STEPS_PER_OCTAVE) as usize + 2;
         let decode_rhythm = |c: usize| {
-            (c != NONE_CODE)
-                .then(|| (c - 1) as f64 / RHYTHM_STEPS_PER_OCTAVE - RHYTHM_CLAMP)
+            (c != NONE_CODE).then(|| (c - 1) as f64 / RHYTHM_STEPS_PER_OCTAVE - RHYTHM_CLAMP)
         };
         let mut rhythm = vec![0; rhythm_codes * rhythm_codes];
         for ca in 0..rhythm_codes {
@@ -228,7 +225,6 @@ impl Scorer {
         let d = (self.b.pc[j] + 24 - self.a.pc[i] - t) % 12;
         self.pitch[d as usize]
     }
-
 
     /// Pitch term of a_i against any note of pitch class `pc` under `t`.
     #[inline(always)]

@@ -69,7 +69,7 @@ Exit codes:
   2  usage error (bad option, or a selection that matches nothing)
   3  input error (a file could not be read)"
     )]
-    Compare(CompareArgs),
+    Compare(Box<CompareArgs>),
 }
 
 #[derive(Debug, Args)]
@@ -104,7 +104,12 @@ pub struct CompareArgs {
 #[derive(Debug, Args)]
 pub struct AlignmentArgs {
     /// Points for the same pitch class after transposing.
-    #[arg(long, default_value_t = 8, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(
+        long,
+        default_value_t = 8,
+        allow_negative_numbers = true,
+        help_heading = "ALIGNMENT"
+    )]
     pub pitch_match: i32,
     /// Points for a pitch one semitone off.
     #[arg(long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
@@ -113,25 +118,50 @@ pub struct AlignmentArgs {
     #[arg(long, default_value_t = -8, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub pitch_mismatch: i32,
     /// Points for the same interval into both notes.
-    #[arg(long, default_value_t = 4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(
+        long,
+        default_value_t = 4,
+        allow_negative_numbers = true,
+        help_heading = "ALIGNMENT"
+    )]
     pub interval_match: i32,
     /// Points for intervals in one direction within two semitones.
-    #[arg(long, default_value_t = 0, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(
+        long,
+        default_value_t = 0,
+        allow_negative_numbers = true,
+        help_heading = "ALIGNMENT"
+    )]
     pub interval_near: i32,
     /// Points for other intervals.
     #[arg(long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub interval_mismatch: i32,
     /// Points for the same rhythm (inter-onset ratio to the previous note).
-    #[arg(long, default_value_t = 2, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(
+        long,
+        default_value_t = 2,
+        allow_negative_numbers = true,
+        help_heading = "ALIGNMENT"
+    )]
     pub rhythm_match: i32,
     /// Points for rhythms within a factor of two.
-    #[arg(long, default_value_t = 0, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(
+        long,
+        default_value_t = 0,
+        allow_negative_numbers = true,
+        help_heading = "ALIGNMENT"
+    )]
     pub rhythm_near: i32,
     /// Points for other rhythms.
     #[arg(long, default_value_t = -3, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub rhythm_mismatch: i32,
     /// Points for the same metric level (downbeat, strong, weak, off-beat).
-    #[arg(long, default_value_t = 1, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(
+        long,
+        default_value_t = 1,
+        allow_negative_numbers = true,
+        help_heading = "ALIGNMENT"
+    )]
     pub metric_match: i32,
     /// Cost of opening a gap (one unmatched note).
     #[arg(long, default_value_t = 16, help_heading = "ALIGNMENT")]
@@ -286,19 +316,44 @@ pub struct SelectionArgs {
 #[derive(Debug, Args)]
 pub struct LimitArgs {
     /// Largest input file, in MiB.
-    #[arg(long, default_value_t = 256, value_name = "MIB", help_heading = "LIMITS")]
+    #[arg(
+        long,
+        default_value_t = 256,
+        value_name = "MIB",
+        help_heading = "LIMITS"
+    )]
     pub max_file_mb: u64,
     /// Largest decompressed entry of an .mxl container, in MiB.
-    #[arg(long, default_value_t = 256, value_name = "MIB", help_heading = "LIMITS")]
+    #[arg(
+        long,
+        default_value_t = 256,
+        value_name = "MIB",
+        help_heading = "LIMITS"
+    )]
     pub max_decompressed_mb: u64,
     /// Most entries in an .mxl container.
-    #[arg(long, default_value_t = 10_000, value_name = "N", help_heading = "LIMITS")]
+    #[arg(
+        long,
+        default_value_t = 10_000,
+        value_name = "N",
+        help_heading = "LIMITS"
+    )]
     pub max_archive_entries: u64,
     /// Most notes in one file.
-    #[arg(long, default_value_t = 2_000_000, value_name = "N", help_heading = "LIMITS")]
+    #[arg(
+        long,
+        default_value_t = 2_000_000,
+        value_name = "N",
+        help_heading = "LIMITS"
+    )]
     pub max_notes: u64,
     /// Most bars in one file (after unfolding repeats).
-    #[arg(long, default_value_t = 100_000, value_name = "N", help_heading = "LIMITS")]
+    #[arg(
+        long,
+        default_value_t = 100_000,
+        value_name = "N",
+        help_heading = "LIMITS"
+    )]
     pub max_bars: u64,
 }
 

@@ -7,7 +7,7 @@
 mod args;
 
 use anyhow::Result;
-use args::{Cli, CompareArgs, Command, InspectArgs, OutputFormat};
+use args::{Cli, Command, CompareArgs, InspectArgs, OutputFormat};
 use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
 use std::io::Write;
@@ -59,7 +59,7 @@ fn exit_code_of(error: &anyhow::Error) -> i32 {
 fn run(cli: Cli) -> Result<i32> {
     match cli.command {
         Command::Inspect(args) => inspect(args),
-        Command::Compare(args) => compare(args),
+        Command::Compare(args) => compare(*args),
     }
 }
 

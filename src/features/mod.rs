@@ -115,15 +115,19 @@ impl Sequence {
             let (offset, length, signature) = match bar {
                 Some(b) => {
                     let length = piece.tempo.beats_at(b.length_ticks).0;
-                    let nominal = f64::from(b.time_signature.0) * 4.0
-                        / f64::from(b.time_signature.1.max(1));
+                    let nominal =
+                        f64::from(b.time_signature.0) * 4.0 / f64::from(b.time_signature.1.max(1));
                     // A pickup's notes sit at the end of a full bar.
                     let shift = if b.pickup && length < nominal {
                         nominal - length
                     } else {
                         0.0
                     };
-                    (note.offset_in_bar.0 + shift, nominal.max(length), b.time_signature)
+                    (
+                        note.offset_in_bar.0 + shift,
+                        nominal.max(length),
+                        b.time_signature,
+                    )
                 }
                 None => (note.offset_in_bar.0, 4.0, (4, 4)),
             };

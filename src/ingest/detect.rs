@@ -110,6 +110,9 @@ mod tests {
     #[test]
     fn empty_and_garbage() {
         assert!(matches!(detect(b""), Err(Problem::Empty)));
-        assert!(matches!(detect(b"\x00\x01"), Err(Problem::UnknownFormat(_))));
+        assert!(matches!(
+            detect(b"\x00\x01"),
+            Err(Problem::UnknownFormat(_))
+        ));
     }
 }

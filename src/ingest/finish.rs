@@ -35,8 +35,11 @@ pub(crate) fn finish(
 
     let mut parts = raw.parts;
     for part in &mut parts {
-        part.notes
-            .sort_by(|a, b| (a.onset_ticks, a.pitch.0).partial_cmp(&(b.onset_ticks, b.pitch.0)).unwrap_or(std::cmp::Ordering::Equal));
+        part.notes.sort_by(|a, b| {
+            (a.onset_ticks, a.pitch.0)
+                .partial_cmp(&(b.onset_ticks, b.pitch.0))
+                .unwrap_or(std::cmp::Ordering::Equal)
+        });
         for note in &mut part.notes {
             let start = tempo.seconds_at(note.onset_ticks);
             let end = tempo.seconds_at(note.end_ticks());
@@ -75,9 +78,11 @@ pub(crate) fn finish(
 
     let mut time_signatures = raw.time_signatures;
     time_signatures.sort_by_key(|t| t.ticks);
-    time_signatures.dedup_by(|later, earlier| later.ticks == earlier.ticks && {
-        *earlier = *later;
-        true
+    time_signatures.dedup_by(|later, earlier| {
+        later.ticks == earlier.ticks && {
+            *earlier = *later;
+            true
+        }
     });
     let mut key_signatures = raw.key_signatures;
     key_signatures.sort_by_key(|k| k.ticks);

@@ -123,7 +123,11 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
                         raw.key_signatures.push(KeySignature {
                             ticks: tick,
                             fifths: i32::from(sharps),
-                            mode: if minor { KeyMode::Minor } else { KeyMode::Major },
+                            mode: if minor {
+                                KeyMode::Minor
+                            } else {
+                                KeyMode::Major
+                            },
                         });
                     }
                     MetaMessage::TrackName(text) if track_name.is_empty() => {
@@ -150,10 +154,12 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
                 unclosed += 1;
                 total_notes += 1;
                 check_notes(total_notes, limits)?;
-                notes
-                    .entry(channel)
-                    .or_default()
-                    .push(midi_note(onset, tick - onset, key, velocity));
+                notes.entry(channel).or_default().push(midi_note(
+                    onset,
+                    tick - onset,
+                    key,
+                    velocity,
+                ));
             }
         }
         if unclosed > 0 {
@@ -394,8 +400,9 @@ fn bar_grid(
     }
     let first_is_pickup = match (bars.first(), bars.get(1)) {
         (Some(first), second) => {
-            let off_downbeat = first_onset
-                .is_some_and(|t| t > first.start_ticks && t < first.start_ticks + first.length_ticks);
+            let off_downbeat = first_onset.is_some_and(|t| {
+                t > first.start_ticks && t < first.start_ticks + first.length_ticks
+            });
             let short_before_change = second.is_some_and(|s| {
                 s.time_signature != first.time_signature
                     && first.length_ticks
@@ -455,8 +462,12 @@ fn chunk_warnings(bytes: &[u8]) -> Vec<String> {
     let mut track = 0usize;
     while pos + 8 <= bytes.len() {
         let kind = &bytes[pos..pos + 4];
-        let declared =
-            u32::from_be_bytes([bytes[pos + 4], bytes[pos + 5], bytes[pos + 6], bytes[pos + 7]]);
+        let declared = u32::from_be_bytes([
+            bytes[pos + 4],
+            bytes[pos + 5],
+            bytes[pos + 6],
+            bytes[pos + 7],
+        ]);
         let remaining = bytes.len() - pos - 8;
         if kind == b"MTrk" {
             track += 1;
@@ -541,7 +552,11 @@ mod tests {
             (0x0FFF_FFFF, &[0xFF, 0xFF, 0xFF, 0x7F]),
         ];
         for (value, bytes) in table {
-            assert_eq!(vlq(value), bytes, "test encoder disagrees with the spec table");
+            assert_eq!(
+                vlq(value),
+                bytes,
+                "test encoder disagrees with the spec table"
+            );
             let mut track = bytes.to_vec();
             track.extend_from_slice(&[0x90, 60, 100, 0x60, 0x80, 60, 0]);
             track.extend_from_slice(&[0x00, 0xFF, 0x2F, 0x00]);
@@ -565,7 +580,9 @@ mod tests {
     /// SMF 1.0: with no Set Tempo event the tempo is 120 bpm (500,000 µs per quarter note).
     #[test]
     fn default_tempo_is_120_bpm() {
-        let track = vec![0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00];
+        let track = vec![
+            0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00,
+        ];
         let raw = read(&smf(0, 96, &[track]), &Limits::default()).ok();
         let raw = raw.as_ref();
         assert!(raw.is_some_and(|r| r.tempo.is_empty()));
@@ -602,8 +619,8 @@ mod tests {
     fn pickup_detected_when_first_note_is_off_the_downbeat() {
         // 4/4 at 96 tpq: first note at beat 4 of the opening bar.
         let track = vec![
-            0x00, 0x90, 67, 100, 0x60, 0x80, 67, 0, 0x00, 0x90, 72, 100, 0x83, 0x00, 0x80, 72,
-            0, 0x00, 0xFF, 0x2F, 0x00,
+            0x00, 0x90, 67, 100, 0x60, 0x80, 67, 0, 0x00, 0x90, 72, 100, 0x83, 0x00, 0x80, 72, 0,
+            0x00, 0xFF, 0x2F, 0x00,
         ];
         let mut track = track;
         // Delay the first note by three quarter notes (288 ticks = 0x82 0x20).
@@ -618,7 +635,9 @@ mod tests {
 
     #[test]
     fn truncated_and_garbage_files_are_errors() {
-        let track = vec![0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00];
+        let track = vec![
+            0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00,
+        ];
         let file = smf(0, 96, &[track]);
         for cut in [4, 13, 20, file.len() - 3] {
             // Never a panic; either an error or a lenient reading.

@@ -57,8 +57,8 @@ pub struct MelodyChoice {
 
 /// Words in a part or instrument name that suggest the melody line.
 const MELODY_WORDS: [&str; 12] = [
-    "melod", "vocal", "voice", "voc", "lead", "solo", "soprano", "sing", "tune", "canto",
-    "chant", "lyric",
+    "melod", "vocal", "voice", "voc", "lead", "solo", "soprano", "sing", "tune", "canto", "chant",
+    "lyric",
 ];
 
 /// Fills [`Piece::melody`] and [`Piece::selection`].
@@ -71,7 +71,11 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
     let candidates = candidate_parts(&piece, choice)?;
     let asked = choice.part.is_some() || choice.track.is_some() || choice.channel.is_some();
     let (part_index, why) = if candidates.len() == 1 {
-        let why = if asked { "as asked" } else { "the only pitched part" };
+        let why = if asked {
+            "as asked"
+        } else {
+            "the only pitched part"
+        };
         (candidates[0], why.to_string())
     } else {
         most_melodic(&piece, &candidates)
@@ -124,7 +128,10 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
         part: part_index,
         staff: choice.staff,
         voice: choice.voice.clone(),
-        bars: choice.bars.as_ref().map(|r| (r.first.clone(), r.last.clone())),
+        bars: choice
+            .bars
+            .as_ref()
+            .map(|r| (r.first.clone(), r.last.clone())),
         skyline: had_chords,
         reason,
     };
@@ -202,7 +209,9 @@ fn candidate_parts(piece: &Piece, choice: &MelodyChoice) -> Result<Vec<usize>, P
                 listing()
             ))
         } else {
-            Problem::NoNotes("every part with notes is percussion (use --include-percussion to allow it)".into())
+            Problem::NoNotes(
+                "every part with notes is percussion (use --include-percussion to allow it)".into(),
+            )
         });
     }
     Ok(matching)
@@ -252,7 +261,11 @@ fn most_melodic(piece: &Piece, candidates: &[usize]) -> (usize, String) {
             candidates.len(),
             100.0 * monophony,
             pitch_name(mean),
-            if named { ", named like a melody line" } else { "" }
+            if named {
+                ", named like a melody line"
+            } else {
+                ""
+            }
         );
         if best.as_ref().is_none_or(|(s, _, _)| score > *s + 1e-12) {
             best = Some((score, i, why));
@@ -284,8 +297,12 @@ fn single_onset_share(notes: &[&Note]) -> f64 {
 }
 
 fn has_simultaneous_onsets(notes: &[&Note]) -> bool {
-    notes.windows(2).any(|w| w[0].onset_ticks == w[1].onset_ticks)
-        || notes.windows(2).any(|w| w[1].onset_ticks < w[0].end_ticks())
+    notes
+        .windows(2)
+        .any(|w| w[0].onset_ticks == w[1].onset_ticks)
+        || notes
+            .windows(2)
+            .any(|w| w[1].onset_ticks < w[0].end_ticks())
 }
 
 /// Skyline reduction to one note at a time: at each onset keep the highest note, unless a
@@ -333,7 +350,9 @@ fn resolve_bars(piece: &Piece, range: &BarRange) -> Result<(usize, usize), Probl
         .bars
         .iter()
         .position(|b| b.label == range.first)
-        .ok_or_else(|| Problem::Selection(format!("no bar labelled '{}'; {}", range.first, labels())))?;
+        .ok_or_else(|| {
+            Problem::Selection(format!("no bar labelled '{}'; {}", range.first, labels()))
+        })?;
     let end = piece.bars[start..]
         .iter()
         .position(|b| b.label == range.last)

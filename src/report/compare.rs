@@ -93,10 +93,13 @@ fn fmt_beat(value: f64) -> String {
 }
 
 fn note_name(piece: &Piece, index: usize) -> String {
-    piece.melody.get(index).map_or_else(String::new, |n| match &n.spelling {
-        Some(s) => s.name(),
-        None => pitch_name(n.pitch.0),
-    })
+    piece
+        .melody
+        .get(index)
+        .map_or_else(String::new, |n| match &n.spelling {
+            Some(s) => s.name(),
+            None => pitch_name(n.pitch.0),
+        })
 }
 
 /// The human listing.
@@ -223,14 +226,23 @@ fn render_passage(a: &Piece, b: &Piece, p: &Passage) -> String {
             width += w;
             j += 1;
         }
-        let (mut ra, mut rb, mut rm) = (String::from("  A "), String::from("  B "), String::from("    "));
+        let (mut ra, mut rb, mut rm) = (
+            String::from("  A "),
+            String::from("  B "),
+            String::from("    "),
+        );
         for (x, y, m) in &cells[i..j] {
             let w = x.len().max(y.len());
             ra.push_str(&format!("{x:<w$} "));
             rb.push_str(&format!("{y:<w$} "));
             rm.push_str(&format!("{:<w$} ", m.to_string()));
         }
-        out.push_str(&format!("{}\n{}\n{}\n", ra.trim_end(), rb.trim_end(), rm.trim_end()));
+        out.push_str(&format!(
+            "{}\n{}\n{}\n",
+            ra.trim_end(),
+            rb.trim_end(),
+            rm.trim_end()
+        ));
         i = j;
     }
     out.push_str("  = same note after transposing, x different, ~ one note split into repeated notes, - no counterpart\n");

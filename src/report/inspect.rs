@@ -237,7 +237,12 @@ fn note_name(note: &Note) -> String {
 
 /// Builds the record for a piece.
 pub fn record(piece: &Piece) -> InspectRecord {
-    let part_id = |i: usize| piece.parts.get(i).map_or_else(String::new, |p| p.id.clone());
+    let part_id = |i: usize| {
+        piece
+            .parts
+            .get(i)
+            .map_or_else(String::new, |p| p.id.clone())
+    };
     let beats = |ticks: i64| piece.tempo.beats_at(ticks).0;
     InspectRecord {
         schema_version: INSPECT_SCHEMA_VERSION,
@@ -254,8 +259,14 @@ pub fn record(piece: &Piece) -> InspectRecord {
             .parts
             .iter()
             .map(|p| {
-                let low = p.notes.iter().min_by(|a, b| a.pitch.0.total_cmp(&b.pitch.0));
-                let high = p.notes.iter().max_by(|a, b| a.pitch.0.total_cmp(&b.pitch.0));
+                let low = p
+                    .notes
+                    .iter()
+                    .min_by(|a, b| a.pitch.0.total_cmp(&b.pitch.0));
+                let high = p
+                    .notes
+                    .iter()
+                    .max_by(|a, b| a.pitch.0.total_cmp(&b.pitch.0));
                 PartSummary {
                     id: p.id.clone(),
                     name: p.name.clone(),
@@ -276,11 +287,7 @@ pub fn record(piece: &Piece) -> InspectRecord {
             part: part_id(piece.selection.part),
             staff: piece.selection.staff,
             voice: piece.selection.voice.clone(),
-            bars: piece
-                .selection
-                .bars
-                .clone()
-                .map(|(a, b)| [a, b]),
+            bars: piece.selection.bars.clone().map(|(a, b)| [a, b]),
             skyline: piece.selection.skyline,
             reason: piece.selection.reason.clone(),
         },
@@ -400,7 +407,11 @@ pub fn render_text(piece: &Piece) -> String {
     line(
         &mut out,
         "format",
-        &format!("{} ({})", piece.provenance.format.describe(), r.source.detail),
+        &format!(
+            "{} ({})",
+            piece.provenance.format.describe(),
+            r.source.detail
+        ),
     );
     line(&mut out, "size", &format!("{} bytes", r.source.bytes));
     line(&mut out, "sha-256", &r.source.sha256);

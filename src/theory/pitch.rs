@@ -170,7 +170,11 @@ pub fn pitch_name(midi: f64) -> String {
     let nearest = midi.round();
     let n = nearest as i64;
     let octave = n.div_euclid(12) - 1;
-    let mut out = format!("{}{}", PitchClassName::of((n.rem_euclid(12)) as i32), octave);
+    let mut out = format!(
+        "{}{}",
+        PitchClassName::of((n.rem_euclid(12)) as i32),
+        octave
+    );
     let cents = ((midi - nearest) * 100.0).round() as i64;
     if cents != 0 {
         out.push_str(&format!("{cents:+}c"));

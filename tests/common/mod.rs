@@ -7,12 +7,18 @@ use std::path::{Path, PathBuf};
 
 /// Path of a committed fixture.
 pub fn fixture(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures").join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/fixtures")
+        .join(name)
 }
 
 /// Reads a MusicXML document given as text.
 pub fn read_xml(text: &str) -> Result<Piece, IngestError> {
-    read_bytes(Path::new("inline.musicxml"), text.as_bytes(), &ReadOptions::default())
+    read_bytes(
+        Path::new("inline.musicxml"),
+        text.as_bytes(),
+        &ReadOptions::default(),
+    )
 }
 
 /// Reads a MusicXML document given as text, with options.

@@ -26,9 +26,14 @@ fn declared_encoding(bytes: &[u8]) -> Option<&'static Encoding> {
         .map(Cow::Borrowed)
         .unwrap_or_else(|| String::from_utf8_lossy(head));
     let decl_end = text.find("?>")?;
-    let decl = text.strip_prefix("<?xml")?.get(..decl_end.saturating_sub(5))?;
+    let decl = text
+        .strip_prefix("<?xml")?
+        .get(..decl_end.saturating_sub(5))?;
     let at = decl.find("encoding")?;
-    let rest = decl[at + "encoding".len()..].trim_start().strip_prefix('=')?.trim_start();
+    let rest = decl[at + "encoding".len()..]
+        .trim_start()
+        .strip_prefix('=')?
+        .trim_start();
     let quote = rest.chars().next()?;
     if quote != '"' && quote != '\'' {
         return None;

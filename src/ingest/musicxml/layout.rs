@@ -5,6 +5,10 @@ use crate::ingest::{Limits, Problem, RawBar, RawPiece};
 use crate::timeline::{KeySignature, Note, TempoChange, TimeSignature};
 use crate::units::{Beats, MidiPitch, Seconds};
 
+/// What a measure ordinal looks like across all parts: label, implicit flag, length in ticks,
+/// time signature in force, repeat marks.
+type MeasureShape = (String, bool, i64, (u32, u32), RepeatMarks);
+
 /// Places every part's measures on one time line, in written or unfolded order.
 pub(super) fn lay_out(
     raw: &mut RawPiece,
@@ -18,8 +22,8 @@ pub(super) fn lay_out(
         return Err(Problem::MusicXml("the score has no <measure>".into()));
     }
 
-    // Per measure ordinal: label, implicit flag, length, time signature, repeat marks.
-    let mut shape: Vec<(String, bool, i64, (u32, u32), RepeatMarks)> = Vec::with_capacity(count);
+    // Per measure ordinal, across parts.
+    let mut shape: Vec<MeasureShape> = Vec::with_capacity(count);
     let mut current = (4u32, 4u32);
     for i in 0..count {
         let present: Vec<&MeasureContent> = contents.iter().filter_map(|p| p.get(i)).collect();
@@ -165,9 +169,11 @@ pub(super) fn lay_out(
             if part_index == 0 {
                 for &(offset, fifths, mode) in &m.keys {
                     let ticks = start + offset;
-                    if raw.key_signatures.last().is_none_or(|k| {
-                        k.ticks != ticks && (k.fifths, k.mode) != (fifths, mode)
-                    }) {
+                    if raw
+                        .key_signatures
+                        .last()
+                        .is_none_or(|k| k.ticks != ticks && (k.fifths, k.mode) != (fifths, mode))
+                    {
                         raw.key_signatures.push(KeySignature {
                             ticks,
                             fifths,
@@ -227,7 +233,8 @@ fn merge_ties(mut notes: Vec<(Note, bool, bool)>) -> (Vec<Note>, usize) {
                 .iter()
                 .enumerate()
                 .filter(|(_, (idx, pitch, _))| {
-                    (*pitch - note.pitch.0).abs() < 1e-9 && out[*idx].end_ticks() == note.onset_ticks
+                    (*pitch - note.pitch.0).abs() < 1e-9
+                        && out[*idx].end_ticks() == note.onset_ticks
                 })
                 .map(|(k, _)| k)
                 .collect();

@@ -202,7 +202,10 @@ fn read_attributes(node: Node, cursor: i64, state: &mut PartState, out: &mut Mea
         let chromatic = child_number(t, "chromatic").unwrap_or(0.0);
         let diatonic = child_number(t, "diatonic").unwrap_or(0.0) as i32;
         let octaves = child_number(t, "octave-change").unwrap_or(0.0) as i32;
-        state.transpose = (diatonic + 7 * octaves, chromatic + 12.0 * f64::from(octaves));
+        state.transpose = (
+            diatonic + 7 * octaves,
+            chromatic + 12.0 * f64::from(octaves),
+        );
     }
     if let Some(key) = child(node, "key") {
         if let Some(fifths) = child_number(key, "fifths") {
@@ -400,7 +403,10 @@ fn duration_from_type(node: Node, resolution: u32) -> i64 {
 /// The first verse's syllable: `<lyric>` numbered 1 (or the first), its `<text>` parts joined,
 /// with a trailing hyphen when the word continues (`syllabic` begin or middle).
 fn lyric_of(node: Node) -> Option<String> {
-    let lyrics: Vec<Node> = node.children().filter(|c| c.has_tag_name("lyric")).collect();
+    let lyrics: Vec<Node> = node
+        .children()
+        .filter(|c| c.has_tag_name("lyric"))
+        .collect();
     let lyric = lyrics
         .iter()
         .find(|l| l.attribute("number").is_none_or(|n| n == "1"))
@@ -534,7 +540,10 @@ fn chord_symbol(node: Node, transpose: (i32, f64)) -> Option<String> {
         };
         let s = written.transposed(transpose.0, transpose.1);
         let name = s.name();
-        Some(name.trim_end_matches(|c: char| c.is_ascii_digit() || c == '-').to_string())
+        Some(
+            name.trim_end_matches(|c: char| c.is_ascii_digit() || c == '-')
+                .to_string(),
+        )
     };
     let kind_node = child(node, "kind");
     if kind_node.and_then(|k| k.text()).map(str::trim) == Some("none") {

@@ -37,8 +37,7 @@ pub(crate) fn read_xml(bytes: &[u8], limits: &Limits, unfold: bool) -> Result<Ra
     let mut raw = read_text(&text, limits, unfold)?;
     if had_errors {
         raw.warnings.push(
-            "musicxml: some bytes were not valid in the declared encoding and were replaced"
-                .into(),
+            "musicxml: some bytes were not valid in the declared encoding and were replaced".into(),
         );
     }
     Ok(raw)
@@ -176,7 +175,11 @@ fn part_sources<'a, 'input>(root: Node<'a, 'input>, timewise: bool) -> Vec<PartS
             }
         }
     } else {
-        for (i, part) in root.children().filter(|c| c.has_tag_name("part")).enumerate() {
+        for (i, part) in root
+            .children()
+            .filter(|c| c.has_tag_name("part"))
+            .enumerate()
+        {
             let id = part
                 .attribute("id")
                 .map_or_else(|| format!("P{}", i + 1), str::to_string);
