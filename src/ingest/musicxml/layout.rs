@@ -211,7 +211,11 @@ pub(super) fn lay_out(
         }
     }
     raw.time_signatures.sort_by_key(|t| t.ticks);
-    raw.time_signatures.dedup();
+    // Keep changes only: the same signature met again (other parts, unfolded repeats) is no
+    // new event.
+    raw.time_signatures.dedup_by(|later, earlier| {
+        (later.numerator, later.denominator) == (earlier.numerator, earlier.denominator)
+    });
     Ok(())
 }
 
