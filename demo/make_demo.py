@@ -309,17 +309,21 @@ class Piece:
 # ---------------------------------------------------------------- Work A -------------------
 # "Harbour Lights at Evening", Maren Holloway, 2024. G major, 4/4, quarter = 96.
 # Pickup bar 0, verse 1-8, the hook (chorus) 9-16, coda 17-24.
+#
+# Verse and coda are a ballad in plain major harmony (I, IV, V and one passing Am7): the
+# words are told on repeated notes in a long-short dotted rhythm, and the tune moves by leaps
+# through the chord (G-B-D, C-E-G, D-A), with notes of the chord on the strong beats.
 
 A_MELODY = """
 0: D4:q
-1: G4:q G4:e A4:e B4:q B4:q
-2: A4:q G4:q E4:h
-3: C5:q C5:e B4:e A4:q G4:q
-4: F#4:q E4:q D4:q D4:q
-5: G4:q G4:e A4:e B4:q D5:q
-6: C5:q B4:q A4:h
-7: C5:q B4:q G4:q E4:q
-8: A4:h. r:q
+1: G4:q B4:e. B4:s D5:q D5:e. D5:s
+2: G5:h D5:q. D5:e
+3: C5:q C5:e. C5:s E5:q C5:e. C5:s
+4: D5:h A4:q. A4:e
+5: B4:q. B4:e D5:q B4:e. G4:s
+6: E5:q E5:e. E5:s G5:h
+7: r:q G5:q F#5:h
+8: D5:h. r:q
 9: B4:q G5:q. F#5:e E5:q
 10: D5:e E5:e D5:e C5:e B4:h
 11: A4:e C5:q A4:e E5:q. D5:e~
@@ -328,13 +332,13 @@ A_MELODY = """
 14: A4:e B4:q G4:e E4:q F#4:q
 15: G4:q. A4:e B4:q D5:q
 16: G4:w
-17: E5:h D5:q B4:q
-18: C5:q. B4:e A4:h
-19: G4:q A4:q B4:q C5:q
-20: D5:h. r:q
-21: E5:q C5:q A4:q F#4:q
-22: G4:h B4:h
-23: A4:q. G4:e F#4:q A4:q
+17: r:h G4:e. G4:s C5:q
+18: G5:q. D5:e B4:q B4:e. B4:s
+19: C5:q. C5:e E5:h
+20: r:h. A4:e A4:e
+21: D5:q. B4:e G5:q. D5:e
+22: E5:h C5:q. C5:e
+23: A4:h. F#4:q
 24: G4:w
 """
 
@@ -344,37 +348,42 @@ and ev -- ery win -- dow is burn -- ing a -- long the old shore.
 Shine on, har -- bour lights, the ev -- 'ning's come, and call the boats home
 through the grey sil -- ver wa -- ter we'll fol -- low you all the long way home.
 When I am far a -- way on the in -- land roads,
-I will keep them burn -- ing at the wa -- ter's edge.
+I will keep them burn -- ing down at the wa -- ter's edge.
 """
 
 A_CHORDS = [
-    "", "G", "Am7", "C", "D", "G", "C Am@2", "Am7 Em@2", "D",
+    "", "G", "G", "C", "D", "G", "C", "Am7 D@2", "D",
     "G Em@3", "D7 G/B@2", "Am C@2", "D", "G C@3", "Am Em@2 D/F#@3", "C D@2", "G",
-    "Em", "Am", "C D@2", "G", "Am D@3", "G Em@2", "C D@2", "G",
+    "C", "G", "C", "D", "G", "C", "D", "G",
 ]
 
 # ---------------------------------------------------------------- Work B -------------------
 # "Paper Boats", Tobias Wren, 2025. B-flat major, 4/4, quarter = 120. Tenor voice, written in
 # the treble clef with an 8 below (pitches in the file are the sounding pitches, as MusicXML
 # does for that clef). Verse 1-16, the borrowed hook 17-24, coda 25-32.
+#
+# Verse and coda lean on the minor: the verse starts in G minor (vi, with its leading note
+# F-sharp) and passes through C minor (ii) before F7 brings the chorus; the coda goes back to
+# G minor and C minor. The tune turns around a few notes by step, with semitone neighbour notes
+# (G F# G, C B C, D Eb D), in even eighths that are syncopated across the beat.
 
 B_MELODY = """
-1: F3:e F3:e Bb3:e Bb3:e C4:q D4:q
-2: Eb4:q D4:e C4:e Bb3:h
-3: G3:e G3:e C4:e C4:e D4:q Eb4:q
-4: F4:h r:h
-5: F3:e F3:e Bb3:e Bb3:e C4:q D4:q
-6: G4:q F4:e Eb4:e D4:h
-7: C4:e C4:e Eb4:e C4:e A3:q C4:q
-8: Bb3:h. r:q
-9: D4:q D4:q D4:e Eb4:e D4:q
-10: G4:h F4:h
-11: Eb4:q Eb4:q Eb4:e D4:e C4:q
-12: D4:w
-13: Bb3:q D4:q F4:q G4:e F4:e
-14: D4:h C4:h
-15: A3:q C4:q Eb4:q D4:e C4:e
-16: Bb3:h r:h
+1: G3:e F#3:q G3:e Bb3:q A3:q
+2: G3:e C4:q Bb3:e C4:e Eb4:q.
+3: D4:e Eb4:e D4:q C#4:e D4:q A3:e
+4: G3:h r:h
+5: D4:e Bb3:q A3:e Bb3:e G3:q.
+6: Bb3:e C4:e Eb4:q D4:e Eb4:q.
+7: D4:e A3:e Bb3:q A3:e F#3:e A3:q
+8: G3:h r:h
+9: D4:e C4:q B3:e C4:q Eb4:q
+10: D4:q Bb3:q r:e Eb4:q D4:e
+11: F4:q E4:e F4:e C4:h~
+12: C4:h r:h
+13: Bb3:e C4:e Eb4:q D4:e Eb4:q.
+14: G4:e F4:q G4:e Eb4:q D4:e Eb4:e
+15: F4:q C4:h.
+16: R
 17: D4:q Bb4:q A4:q G4:q
 18: F4:e G4:e F4:e Eb4:e D4:q D4:q
 19: C4:e Eb4:q C4:e G4:q. r:e
@@ -383,14 +392,14 @@ B_MELODY = """
 22: C4:e D4:q Bb3:e D4:q A3:q
 23: Bb3:q Bb3:e C4:e D4:q F4:q
 24: Bb3:w
-25: G4:h F4:q D4:q
-26: Eb4:q. D4:e C4:h
-27: D4:q D4:e D4:e Eb4:q C4:q
-28: F4:w
-29: G4:e G4:e F4:e F4:e Eb4:q D4:q
-30: C4:q A3:q F3:h
-31: Bb3:q D4:q C4:q A3:q
-32: Bb3:w
+25: G3:e F#3:q G3:e Bb3:q A3:e G3:e~
+26: G3:q C4:e Eb4:q D4:e Bb3:e D4:e
+27: Eb4:e C4:e~ C4:q r:h
+28: R
+29: G3:e Bb3:q A3:e Bb3:q r:e D4:e
+30: Eb4:q C4:e B3:e C4:q r:e D4:e
+31: Eb4:q C4:e Bb3:e~ Bb3:h~
+32: Bb3:h r:h
 """
 
 B_LYRICS = """
@@ -405,10 +414,10 @@ and reads the lines I nev -- er could say a -- loud to you.
 """
 
 B_CHORDS = [
-    "Bb", "Eb Bb@2", "Cm F7@3", "F", "Bb", "Eb Bb/D@2", "Cm7 F7@2", "Bb",
-    "Gm", "Eb Bb@2", "Cm F@3", "Bb", "Bb Eb@3", "Gm F@2", "F7", "Bb",
+    "Gm", "Cm", "D", "Gm", "Gm", "Cm", "D7", "Gm",
+    "Cm", "Gm", "F", "F", "Eb", "Cm", "F7", "F7",
     "Bb Gm@3", "F7 Bb/D@2", "Cm Eb@2", "F", "Bb Eb@3", "Cm Gm@2 F/A@3", "Eb F@2", "Bb",
-    "Eb Bb@2", "Cm F@2", "Gm Eb@2", "F", "Eb Bb@3", "F", "Bb F7@2", "Bb",
+    "Gm", "Cm", "F7", "Eb", "Gm", "Cm", "F7", "Bb",
 ]
 
 B_HOOK_BARS = range(17, 25)  # doubled by the alto saxophone
@@ -426,10 +435,10 @@ C_MELODY = """
 7: G4:e A4:e Bb4:e C5:q E4:e
 8: D4:q. r:q.
 9: F5:q E5:e D5:q C5:e
-10: D5:q. A4:q.
-11: Bb4:q C5:e D5:q Bb4:e
-12: C5:q. G4:q.
-13: A4:q Bb4:e C5:e D5:e E5:e
+10: A4:q. D5:q.
+11: Bb4:q D5:e F5:q D5:e
+12: C5:q E5:e G5:q E5:e
+13: A4:q. C5:e D5:e E5:e
 14: F5:q. E5:e D5:e C#5:e
 15: D5:e A4:e F4:e E4:q C#4:e
 16: D4:q. r:q.
@@ -449,12 +458,12 @@ CORPUS = [
 1: C5:h A4:q
 2: F4:h G4:q
 3: A4:q. Bb4:e A4:q
-4: G4:h.
+4: C5:h.
 5: G4:e A4:e G4:e F4:e D4:q
 6: C4:h.
 7: F4:q A4:q C5:q
 8: D5:h C5:q
-9: A4:q G4:q E4:q
+9: A4:q G4:q C5:q
 10: F4:q. G4:e A4:q
 11: G4:q C4:q E4:q
 12: F4:h.
@@ -462,8 +471,8 @@ CORPUS = [
     dict(slug="02-crossing-at-dunmere", title="Crossing at Dunmere", composer="Callum Ashby",
          year=2021, fifths=2, mode="major", time=(4, 4), tempo=100, melody="""
 1: D4:q F#4:q A4:q. B4:e
-2: A4:h F#4:h
-3: G4:q B4:q D5:q C#5:q
+2: A4:h D4:h
+3: G4:q B4:q E5:q C#5:q
 4: B4:h A4:h
 5: E4:q F#4:e E4:e D4:h
 6: F#4:q A4:q D5:q. C#5:e
@@ -490,7 +499,7 @@ CORPUS = [
 4: E5:h. r:q
 5: D5:q B4:e A4:e G4:q E4:q
 6: G4:q. A4:e B4:h
-7: G4:q F#4:q E4:q D4:q
+7: C5:q A4:q F#4:q D#4:q
 8: E4:w
 """),
     dict(slug="05-postcard-from-kestrel-point", title="Postcard from Kestrel Point",
@@ -498,15 +507,15 @@ CORPUS = [
          melody="""
 1: F4:q Bb4:q D5:q F5:q
 2: Eb5:q. D5:e C5:h
-3: Bb4:q C5:q D5:q Bb4:q
+3: A4:q Bb4:q D5:q Bb4:q
 4: C5:w
 5: F4:q C5:q Eb5:q D5:e C5:e
 6: D5:h Bb4:h
 7: A4:q G4:q A4:q Bb4:q
 8: F4:w
 9: Bb4:e Bb4:e D5:q C5:e C5:e Eb5:q
-10: D5:q. C5:e Bb4:q A4:q
-11: G4:q Eb5:q D5:q C5:q
+10: D5:q. Bb4:e C5:q A4:q
+11: G4:q Eb5:q C5:q A4:q
 12: Bb4:w
 """),
     dict(slug="06-slate-roof-rain", title="Slate Roof Rain", composer="Tamsin Vey",
@@ -551,7 +560,7 @@ CORPUS = [
 8: Eb4:h.
 9: G4:q G4:q Ab4:q
 10: Bb4:h Eb5:q
-11: D5:q C5:q Bb4:q
+11: D5:q F5:q D5:q
 12: C5:h.
 13: Eb5:q D5:q C5:q
 14: Bb4:q G4:q Eb4:q
