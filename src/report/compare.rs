@@ -172,9 +172,13 @@ fn render_passage(a: &Piece, b: &Piece, p: &Passage) -> String {
         _ => String::new(),
     };
     out.push_str(&format!(
-        "  B is {}{keys}; B's notes last {} times A's; pitch classes agree {:.0}%, intervals {:.0}%, rhythm {:.0}%, metric position {:.0}%\n",
+        "  B is {}{keys}; {}; pitch classes agree {:.0}%, intervals {:.0}%, rhythm {:.0}%, metric position {:.0}%\n",
         p.transposition,
-        fmt_beat(p.note_value_ratio),
+        if (p.note_value_ratio - 1.0).abs() < 0.01 {
+            "same note values".to_string()
+        } else {
+            format!("B's note values are {} times A's", fmt_beat(p.note_value_ratio))
+        },
         100.0 * p.agreement.pitch_class,
         100.0 * p.agreement.interval,
         100.0 * p.agreement.rhythm,
