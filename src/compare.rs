@@ -100,6 +100,29 @@ pub struct PairRecord {
     pub equal: bool,
 }
 
+/// How unlikely a passage's score is between unrelated melodies of the same make-up
+/// (filled in by the statistics stage; see `docs/statistics.md`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Significance {
+    /// Expected number of passages scoring at least this high between unrelated melodies of
+    /// these lengths and make-up.
+    pub e_value: f64,
+    /// Probability that the best unrelated passage scores at least this high:
+    /// 1 − exp(−E).
+    pub p_value: f64,
+}
+
+/// How common a passage's figure is in a reference corpus (filled in when a corpus is given).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Commonness {
+    /// Melodies in the corpus.
+    pub corpus_melodies: usize,
+    /// Melodies containing the figure exactly (same intervals and rhythm).
+    pub exact: usize,
+    /// Melodies containing it within the alignment's tolerance.
+    pub similar: usize,
+}
+
 /// One shared passage.
 #[derive(Debug, Clone, Serialize)]
 pub struct Passage {
@@ -126,6 +149,10 @@ pub struct Passage {
     pub agreement: Agreement,
     /// The alignment path.
     pub pairs: Vec<PairRecord>,
+    /// Chance of such a score between unrelated melodies, when computed.
+    pub significance: Option<Significance>,
+    /// How common the figure is in a reference corpus, when one is given.
+    pub commonness: Option<Commonness>,
 }
 
 /// Compares the selected melodies of two pieces.
@@ -426,5 +453,7 @@ fn passage(
             metric_position,
         },
         pairs,
+        significance: None,
+        commonness: None,
     }
 }
