@@ -42,6 +42,8 @@ pub struct Comparison {
     pub unmatched_a: usize,
     /// Notes of B's melody inside no passage.
     pub unmatched_b: usize,
+    /// The null model behind the passages' significance, when computed.
+    pub null_model: Option<crate::stats::null::NullSummary>,
 }
 
 /// Where a passage lies in one work.
@@ -110,6 +112,9 @@ pub struct Significance {
     /// Probability that the best unrelated passage scores at least this high:
     /// 1 − exp(−E).
     pub p_value: f64,
+    /// Share of the shuffled pairs whose best passage scored at least this high, with the
+    /// usual +1 correction: (count + 1) / (shuffles + 1).
+    pub empirical_p: f64,
 }
 
 /// How common a passage's figure is in a reference corpus (filled in when a corpus is given).
@@ -182,6 +187,7 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         unmatched_a: covered(seq_a.len(), alignments.iter().map(|x| x.a_range).collect()),
         unmatched_b: covered(seq_b.len(), alignments.iter().map(|x| x.b_range).collect()),
         passages,
+        null_model: None,
     }
 }
 

@@ -231,6 +231,22 @@ pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment>
     out
 }
 
+/// The best local alignment score of two sequences over all 12 transpositions, without
+/// traceback (0 when nothing aligns): the statistic of the null model.
+pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
+    if a.is_empty() || b.is_empty() {
+        return 0;
+    }
+    let scorer = Scorer::new(a, b, params);
+    let all: Vec<u8> = (0..12).collect();
+    scan::scan_many(&scorer, params, &all, &Blocked::default())
+        .into_iter()
+        .flatten()
+        .map(|hit| hit.score)
+        .max()
+        .unwrap_or(0)
+}
+
 /// First and last note of one side touched by a path.
 fn span(steps: &[Step], side_a: bool) -> Option<(usize, usize)> {
     let mut lo = usize::MAX;
