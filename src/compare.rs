@@ -44,6 +44,20 @@ pub struct Comparison {
     pub unmatched_b: usize,
     /// The null model behind the passages' significance, when computed.
     pub null_model: Option<crate::stats::null::NullSummary>,
+    /// The reference corpus consulted, when one was given.
+    pub corpus: Option<CorpusSummary>,
+}
+
+/// The reference corpus a comparison was weighed against.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CorpusSummary {
+    /// Index file as given.
+    pub path: String,
+    /// Melodies in the corpus.
+    pub melodies: usize,
+    /// Corpus-weighted similarity of the two melodies in [0, 1]: shared figures weighted by
+    /// their rarity in the corpus (after Müllensiefen & Pendzich 2009; `docs/statistics.md`).
+    pub weighted_similarity: f64,
 }
 
 /// Where a passage lies in one work.
@@ -188,6 +202,7 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         unmatched_b: covered(seq_b.len(), alignments.iter().map(|x| x.b_range).collect()),
         passages,
         null_model: None,
+        corpus: None,
     }
 }
 

@@ -13,6 +13,7 @@
 //! assert!((g.e_value(60.0) - (-2.0f64).exp()).abs() < 1e-12);
 //! ```
 
+pub mod corpus;
 pub mod gumbel;
 pub mod null;
 pub mod shuffle;
