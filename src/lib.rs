@@ -15,6 +15,7 @@ pub mod compare;
 pub mod features;
 pub mod ingest;
 pub mod report;
+pub mod stats;
 pub mod theory;
 pub mod timeline;
 pub mod units;
