@@ -298,3 +298,45 @@ fn utf16_with_single_quotes() {
     .unwrap();
     assert_eq!(notes_of(&piece, 0), vec![(0.0, 4.0, 69.0)]);
 }
+
+/// Ties written with a start but no stop (as some notation programs export them; seen in real
+/// files of the music21 corpus, e.g. `beethoven/opus132.mxl` with 752 starts and no stop):
+/// the start carries the sound into the next note of that pitch in the same voice and staff.
+#[test]
+fn tie_start_without_stop_joins_the_next_note_of_its_voice() {
+    let xml = one_part(&format!(
+        "<measure number=\"1\"><attributes><divisions>1</divisions>\
+         <time><beats>2</beats><beat-type>4</beat-type></time></attributes>{}{}</measure>\
+         <measure number=\"2\">{}{}</measure>",
+        note("C", 4, 1, "<voice>1</voice>"),
+        note("E", 4, 1, "<tie type=\"start\"/><voice>1</voice>"),
+        note("E", 4, 1, "<voice>1</voice>"),
+        note("D", 4, 1, "<voice>1</voice>")
+    ));
+    let piece = read_xml(&xml).unwrap();
+    assert_eq!(
+        notes_of(&piece, 0),
+        vec![(0.0, 1.0, 60.0), (1.0, 2.0, 64.0), (3.0, 1.0, 62.0)]
+    );
+    assert!(piece.warnings.iter().any(|w| w.contains("no stop")));
+}
+
+/// A tie into a bar that one part cut short (a 3-beat bar in 4/4): the stop still continues the
+/// tied note of its voice when nothing else of that voice began in between.
+#[test]
+fn tie_across_a_short_gap_joins_when_nothing_intervenes() {
+    let xml = one_part(&format!(
+        "<measure number=\"1\"><attributes><divisions>1</divisions>\
+         <time><beats>2</beats><beat-type>4</beat-type></time></attributes>{}{}\
+         <forward><duration>1</duration></forward></measure>\
+         <measure number=\"2\">{}{}</measure>",
+        note("C", 4, 1, "<voice>1</voice>"),
+        note("G", 4, 1, "<tie type=\"start\"/><voice>1</voice>"),
+        note("G", 4, 1, "<tie type=\"stop\"/><voice>1</voice>"),
+        note("E", 4, 1, "<voice>1</voice>")
+    ));
+    let piece = read_xml(&xml).unwrap();
+    let notes = notes_of(&piece, 0);
+    assert_eq!(notes.len(), 3, "{notes:?}");
+    assert_eq!(notes[1], (1.0, 3.0, 67.0));
+}

@@ -64,8 +64,16 @@ const MELODY_WORDS: [&str; 12] = [
 /// Fills [`Piece::melody`] and [`Piece::selection`].
 pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<Piece, Problem> {
     if piece.parts.iter().all(|p| p.notes.is_empty()) {
+        if piece.parts.iter().any(|p| p.percussion) {
+            // A readable file of unpitched percussion: listed, with no melody to compare.
+            piece.selection.reason = "no melody: the file holds only unpitched percussion".into();
+            piece
+                .warnings
+                .push("no pitched notes: the file holds only unpitched percussion".into());
+            return Ok(piece);
+        }
         return Err(Problem::NoNotes(
-            "the file contains no pitched notes (only rests, percussion or nothing)".into(),
+            "the file contains no pitched notes (only rests or nothing)".into(),
         ));
     }
     let candidates = candidate_parts(&piece, choice)?;

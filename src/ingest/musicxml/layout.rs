@@ -38,7 +38,25 @@ pub(super) fn lay_out(
         }
         .bar_ticks(resolution);
         let actual = present.iter().map(|m| m.length).max().unwrap_or(0);
-        let length = if actual > 0 { actual } else { nominal.max(1) };
+        let sounding = present.iter().map(|m| m.sounding_end).max().unwrap_or(0);
+        // Parts share barlines. When one part fills the bar exactly and the others run past it
+        // only with rests or <forward> (an export error), the bar keeps its written length.
+        let overrun_by_rests =
+            actual > nominal && sounding <= nominal && present.iter().any(|m| m.length == nominal);
+        let length = if overrun_by_rests {
+            if let Some(m) = present.iter().find(|m| m.length > nominal) {
+                raw.warnings.push(format!(
+                    "musicxml: measure {}: some part runs past the time signature with rests only; \
+                     the bar is kept at its written length",
+                    m.label
+                ));
+            }
+            nominal
+        } else if actual > 0 {
+            actual
+        } else {
+            nominal.max(1)
+        };
         let mut marks = RepeatMarks::default();
         for m in &present {
             let r = &m.repeats;
@@ -183,12 +201,31 @@ pub(super) fn lay_out(
                 }
             }
         }
-        let (merged, broken) = merge_ties(notes);
-        if broken > 0 {
+        let (merged, ties) = merge_ties(notes);
+        let part_id = raw
+            .parts
+            .get(part_index)
+            .map_or("?", |p| p.id.as_str())
+            .to_string();
+        if ties.broken > 0 {
             raw.warnings.push(format!(
-                "musicxml: part {}: {broken} tie stops had no matching tied note before them; \
+                "musicxml: part {part_id}: {} tie stops had no matching tied note before them; \
                  read as new notes",
-                raw.parts.get(part_index).map_or("?", |p| p.id.as_str())
+                ties.broken
+            ));
+        }
+        if ties.joined_without_stop > 0 {
+            raw.warnings.push(format!(
+                "musicxml: part {part_id}: {} ties have a start but no stop; each was joined to \
+                 the next note of its pitch, voice and staff",
+                ties.joined_without_stop
+            ));
+        }
+        if ties.joined_across_gap > 0 {
+            raw.warnings.push(format!(
+                "musicxml: part {part_id}: {} tie stops were joined to a tied note that ended \
+                 earlier (a measure of the part is short)",
+                ties.joined_across_gap
             ));
         }
         if let Some(part) = raw.parts.get_mut(part_index) {
@@ -219,54 +256,96 @@ pub(super) fn lay_out(
     Ok(())
 }
 
-/// Merges tied notes: a note with a tie stop extends the open tied note of the same pitch that
-/// ends where it begins. Returns the notes and the number of tie stops left unmatched.
-fn merge_ties(mut notes: Vec<(Note, bool, bool)>) -> (Vec<Note>, usize) {
+/// What tie merging did that a reader should know.
+#[derive(Debug, Default, PartialEq, Eq)]
+struct TieReport {
+    /// Tie stops with no open tie to continue (read as new notes).
+    broken: usize,
+    /// Tie starts continued by the next note of their pitch, voice and staff although it has no
+    /// tie stop (as some notation programs write ties).
+    joined_without_stop: usize,
+    /// Tie stops joined across a short gap (a measure that ends early in one part).
+    joined_across_gap: usize,
+}
+
+/// Merges tied notes into one (MusicXML 4.0: a tie "indicates that a tie begins or ends with
+/// this note"; the sound is one note).
+///
+/// A note continues an open tie of the same pitch when
+/// 1. it has a tie stop and the tied note ends where it begins (the same voice preferred), or
+/// 2. it has no tie stop but is the next note of the tied note's voice and staff, beginning
+///    where the tied note ends (tie starts without stops, as some programs write them), or
+/// 3. it has a tie stop, is in the tied note's voice and staff, and no other note of that voice
+///    began in between (a measure cut short in one part leaves a gap).
+fn merge_ties(mut notes: Vec<(Note, bool, bool)>) -> (Vec<Note>, TieReport) {
+    // Time order; at one onset, tie stops first so that they meet their open ties before any
+    // other note of the voice closes them.
     notes.sort_by(|a, b| {
-        (a.0.onset_ticks, a.0.pitch.0)
-            .partial_cmp(&(b.0.onset_ticks, b.0.pitch.0))
+        (a.0.onset_ticks, !a.2, a.0.pitch.0)
+            .partial_cmp(&(b.0.onset_ticks, !b.2, b.0.pitch.0))
             .unwrap_or(std::cmp::Ordering::Equal)
     });
     let mut out: Vec<Note> = Vec::with_capacity(notes.len());
-    // Open ties: (index in out, pitch, voice).
-    let mut open: Vec<(usize, f64, Option<String>)> = Vec::new();
-    let mut broken = 0usize;
+    // Open ties: indices into `out` of notes whose tie has not been continued yet.
+    let mut open: Vec<usize> = Vec::new();
+    let mut report = TieReport::default();
+    let same_line = |x: &Note, y: &Note| x.voice == y.voice && x.staff == y.staff;
     for (note, tie_start, tie_stop) in notes {
-        if tie_stop {
-            let candidates: Vec<usize> = open
-                .iter()
-                .enumerate()
-                .filter(|(_, (idx, pitch, _))| {
-                    (*pitch - note.pitch.0).abs() < 1e-9
-                        && out[*idx].end_ticks() == note.onset_ticks
-                })
-                .map(|(k, _)| k)
-                .collect();
-            // Prefer the same voice when several match.
-            let chosen = candidates
+        let same_pitch = |idx: &usize| (out[*idx].pitch.0 - note.pitch.0).abs() < 1e-9;
+        let exact: Vec<usize> = (0..open.len())
+            .filter(|&k| same_pitch(&open[k]) && out[open[k]].end_ticks() == note.onset_ticks)
+            .collect();
+        let chosen = if tie_stop {
+            exact
                 .iter()
                 .copied()
-                .find(|&k| open[k].2 == note.voice)
-                .or(candidates.first().copied());
-            if let Some(k) = chosen {
-                let idx = open[k].0;
-                out[idx].duration_ticks += note.duration_ticks;
-                if out[idx].lyric.is_none() {
-                    out[idx].lyric.clone_from(&note.lyric);
-                }
-                if !tie_start {
-                    open.swap_remove(k);
-                }
-                continue;
+                .find(|&k| same_line(&out[open[k]], &note))
+                .or(exact.first().copied())
+                .or_else(|| {
+                    let k = (0..open.len()).find(|&k| {
+                        same_pitch(&open[k])
+                            && same_line(&out[open[k]], &note)
+                            && out[open[k]].end_ticks() < note.onset_ticks
+                    });
+                    if k.is_some() {
+                        report.joined_across_gap += 1;
+                    }
+                    k
+                })
+        } else {
+            let k = exact
+                .iter()
+                .copied()
+                .find(|&k| same_line(&out[open[k]], &note));
+            if k.is_some() {
+                report.joined_without_stop += 1;
             }
-            broken += 1;
+            k
+        };
+        if let Some(k) = chosen {
+            let idx = open[k];
+            out[idx].duration_ticks = note.end_ticks() - out[idx].onset_ticks;
+            if out[idx].lyric.is_none() {
+                out[idx].lyric.clone_from(&note.lyric);
+            }
+            if !tie_start {
+                open.swap_remove(k);
+            }
+            continue;
         }
+        if tie_stop {
+            report.broken += 1;
+        }
+        // A new note of a voice ends that voice's open ties that ended before it.
+        open.retain(|&idx| {
+            !(same_line(&out[idx], &note) && out[idx].end_ticks() < note.onset_ticks)
+        });
         if tie_start {
-            open.push((out.len(), note.pitch.0, note.voice.clone()));
+            open.push(out.len());
         }
         out.push(note);
     }
-    (out, broken)
+    (out, report)
 }
 
 /// The order in which measures are played when repeats and endings are followed.

@@ -57,6 +57,8 @@ pub(crate) struct MeasureContent {
     pub implicit: bool,
     /// The furthest position reached, in ticks.
     pub length: i64,
+    /// The furthest end of a sounding note (rests and `<forward>` excluded), in ticks.
+    pub sounding_end: i64,
     pub notes: Vec<PendingNote>,
     pub graces: Vec<PendingGrace>,
     pub unpitched: usize,
@@ -313,6 +315,9 @@ fn read_note(
         *cursor = cursor.saturating_add(duration);
     }
     out.length = out.length.max(*cursor).max(onset.saturating_add(duration));
+    if child(node, "rest").is_none() {
+        out.sounding_end = out.sounding_end.max(onset.saturating_add(duration));
+    }
     if is_cue {
         return Ok(());
     }
