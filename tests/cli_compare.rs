@@ -5,18 +5,9 @@
 mod common;
 
 use serde_json::Value;
-use std::process::Command;
 
 fn run(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_collatio"))
-        .args(args)
-        .output()
-        .unwrap();
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
+    common::run_cli(args)
 }
 
 fn fixture(name: &str) -> String {

@@ -141,3 +141,16 @@ pub fn events_of(piece: &Piece) -> Vec<Event> {
     }
     out
 }
+
+/// Runs the collatio executable: (exit code, stdout, stderr).
+pub fn run_cli(args: &[&str]) -> (i32, String, String) {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_collatio"))
+        .args(args)
+        .output()
+        .expect("the binary runs");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
