@@ -24,6 +24,18 @@ pub enum Format {
     MusicXml,
     /// Compressed MusicXML (`.mxl` zip container).
     Mxl,
+    /// WAVE audio (RIFF `WAVE`).
+    Wav,
+    /// FLAC audio (`fLaC`).
+    Flac,
+    /// MPEG audio layer III (an ID3v2 tag or an MPEG frame sync).
+    Mp3,
+    /// Ogg container with Vorbis audio (`OggS`).
+    OggVorbis,
+    /// AAC audio, in an MP4/M4A container (`ftyp`) or as ADTS frames.
+    Aac,
+    /// AIFF or AIFF-C audio (IFF `FORM` … `AIFF`/`AIFC`).
+    Aiff,
 }
 
 impl Format {
@@ -33,7 +45,26 @@ impl Format {
             Format::Midi => "Standard MIDI File",
             Format::MusicXml => "MusicXML",
             Format::Mxl => "compressed MusicXML (.mxl)",
+            Format::Wav => "WAV audio",
+            Format::Flac => "FLAC audio",
+            Format::Mp3 => "MP3 audio",
+            Format::OggVorbis => "Ogg Vorbis audio",
+            Format::Aac => "AAC audio (MP4/M4A or ADTS)",
+            Format::Aiff => "AIFF audio",
         }
+    }
+
+    /// Whether the format is an audio recording (read through `crate::audio`).
+    pub fn is_audio(self) -> bool {
+        matches!(
+            self,
+            Format::Wav
+                | Format::Flac
+                | Format::Mp3
+                | Format::OggVorbis
+                | Format::Aac
+                | Format::Aiff
+        )
     }
 }
 

@@ -54,6 +54,9 @@ pub enum Problem {
     /// The selection options match nothing in this file.
     #[error("selection: {0}")]
     Selection(String),
+    /// An audio recording that cannot be decoded or analysed (messages start with `audio:`).
+    #[error(transparent)]
+    Audio(#[from] crate::audio::AudioError),
 }
 
 impl Problem {

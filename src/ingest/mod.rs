@@ -12,6 +12,7 @@
 //! # Ok::<(), collatio::ingest::IngestError>(())
 //! ```
 
+pub mod audio;
 pub mod detect;
 mod error;
 mod finish;
@@ -64,12 +65,84 @@ pub struct ReadOptions {
     pub choice: MelodyChoice,
     /// Unfold repeats and endings into performance order (MusicXML). Default: written order.
     pub unfold_repeats: bool,
+    /// Decoding and analysis of audio recordings.
+    pub audio: audio::AudioReadOptions,
 }
 
 /// Reads a file from disk into the timeline.
 pub fn read_file(path: &Path, options: &ReadOptions) -> Result<Piece, IngestError> {
+    // Audio is streamed from disk (bounded memory) rather than read whole.
+    if let Some(format) = sniff_audio(path) {
+        return read_audio_file(path, format, options).map_err(|p| p.at(path));
+    }
     let bytes = read_limited(path, options.limits.max_file_bytes).map_err(|p| p.at(path))?;
     read_bytes(path, &bytes, options)
+}
+
+/// The audio format of a file on disk, judged from its first 64 KiB.
+fn sniff_audio(path: &Path) -> Option<Format> {
+    let file = std::fs::File::open(path).ok()?;
+    let mut head = Vec::with_capacity(1 << 16);
+    file.take(1 << 16).read_to_end(&mut head).ok()?;
+    detect::detect_audio(&head)
+}
+
+/// Hashes and size-checks an audio file by streaming it, then decodes it from disk.
+fn read_audio_file(path: &Path, format: Format, options: &ReadOptions) -> Result<Piece, Problem> {
+    let limit = options.limits.max_file_bytes;
+    let mut file = std::fs::File::open(path)?;
+    let mut hasher = Sha256::new();
+    let mut buffer = vec![0u8; 1 << 16];
+    let mut total = 0u64;
+    loop {
+        let n = file.read(&mut buffer)?;
+        if n == 0 {
+            break;
+        }
+        total += n as u64;
+        if total > limit {
+            return Err(Problem::Limit {
+                what: "file size in bytes",
+                value: total,
+                limit,
+                flag: "--max-file-mb",
+            });
+        }
+        hasher.update(&buffer[..n]);
+    }
+    let raw = audio::read_file(path, format, &options.audio, &options.limits)?;
+    let sha256 = hasher
+        .finalize()
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect();
+    complete(path, total, sha256, format, raw, options)
+}
+
+/// Finishes a reader's output into a piece and selects its melody.
+fn complete(
+    path: &Path,
+    bytes: u64,
+    sha256: String,
+    format: Format,
+    raw: RawPiece,
+    options: &ReadOptions,
+) -> Result<Piece, Problem> {
+    let provenance = Provenance {
+        path: path.display().to_string(),
+        bytes,
+        sha256,
+        format,
+        detail: raw.detail.clone(),
+    };
+    let mut piece = finish::finish(raw, provenance, options.unfold_repeats)?;
+    if format.is_audio() {
+        // Audio bars rest on tracked beats.
+        for bar in &mut piece.bars {
+            bar.estimated = true;
+        }
+    }
+    select::select_melody(piece, &options.choice)
 }
 
 /// Reads bytes already in memory; `path` is used for provenance and messages.
@@ -92,7 +165,18 @@ fn read_inner(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Piece,
         Format::Midi => midi::read(bytes, limits)?,
         Format::MusicXml => musicxml::read_xml(bytes, limits, options.unfold_repeats)?,
         Format::Mxl => musicxml::read_mxl(bytes, limits, options.unfold_repeats)?,
+        audio_format => audio::read_bytes(bytes, audio_format, &options.audio, limits)?,
     };
+    if format.is_audio() {
+        return complete(
+            path,
+            bytes.len() as u64,
+            sha256_hex(bytes),
+            format,
+            raw,
+            options,
+        );
+    }
     let provenance = Provenance {
         path: path.display().to_string(),
         bytes: bytes.len() as u64,

@@ -1,0 +1,829 @@
+//! Monophonic f0 estimation: YIN and probabilistic YIN (pYIN).
+//!
+//! **YIN** (de Cheveigné & Kawahara 2002, *JASA* 111(4)). For an analysis window of `W`
+//! samples starting at `t`, the difference function (their equation 6)
+//! `d_t(τ) = Σ_{j=t}^{t+W−1} (x_j − x_{j+τ})²` is computed for all lags at once through its
+//! expansion (equation 7) `d_t(τ) = r_t(0) + r_{t+τ}(0) − 2 r_t(τ)`, where the energies `r(0)`
+//! come from a running sum and the cross-correlation `r_t(τ)` from one real FFT of the window,
+//! one of the whole frame and one inverse FFT (size: the power of two ≥ `W + τ_max`, so no
+//! circular wrap-around reaches the lags used). The cumulative mean normalised difference
+//! (equation 8) is `d′(0) = 1`, `d′(τ) = d(τ) / ((1/τ) Σ_{j=1}^{τ} d(j))`. Plain YIN takes the
+//! first dip of `d′` below an absolute threshold (step 4, 0.1 by default), refines it by
+//! parabolic interpolation (step 5) and reports `f0 = sample_rate / τ`.
+//!
+//! **pYIN** (Mauch & Dixon 2014, ICASSP). Instead of one threshold, a Beta(2, 18) prior over
+//! 100 thresholds `s = 0.01 … 1.00`: for each threshold the dips of `d′` below it are
+//! candidates, the `r`-th of them (in order of lag) drawn with a Boltzmann probability
+//! `∝ e^{−2r}`; summing over thresholds gives every dip a probability of being the period. When
+//! no dip lies below a threshold, 1% of that threshold's mass (`no_trough_prob`) goes to the
+//! lowest dip. The candidates become observations of a hidden Markov model over pitch bins
+//! 0.1 semitone wide from `fmin` to `fmax`, each bin with a voiced and an unvoiced state: a
+//! voiced state is observed with the probability of the candidates falling in its bin, every
+//! unvoiced state with `(1 − Σ candidates) / n_bins`. Transitions: pitch moves by at most
+//! `max_transition_rate` octaves per second (35.92, i.e. ±5 semitones per 23 ms frame) with
+//! triangular weights, rows normalised; voicing switches with probability 0.01. The Viterbi
+//! path gives voicing and pitch per frame. These defaults are those librosa documents for its
+//! `pyin`.
+//!
+//! # Deviations
+//! - The analysis window of frame `k` is centred on the frame's time (`k · hop` samples), so
+//!   an f0 is reported where it is measured; librosa starts the window at the frame centre
+//!   minus `frame_length / 2`.
+//! - A dip's depth, compared with the thresholds, is the vertex of the parabola through it and
+//!   its neighbours rather than the sampled value: at short periods (a C7 is 10.5 samples at
+//!   22,050 Hz) the sampled lags miss the true minimum of `d′` by up to half a sample and YIN
+//!   would otherwise prefer the octave below, whose period falls nearer a whole lag.
+//! - Candidates falling into one pitch bin add their probabilities (librosa keeps the last).
+//! - The reported f0 of a voiced frame is that frame's own (parabolically refined) candidate in
+//!   the decoded bin, the strongest if several, else the bin centre. This keeps sub-bin
+//!   precision (the bins are 10 cents wide).
+//! - Frames below an RMS floor (`min_rms`, −80 dBFS) and frames with a flat `d′` get no
+//!   candidates, so digital silence is unvoiced.
+//! - Viterbi runs in the log domain over the banded transition matrix; voiced states whose
+//!   observation probability is zero are never on a path and are skipped.
+
+use realfft::num_complex::Complex;
+use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
+use serde::Serialize;
+use std::sync::Arc;
+
+/// Parameters of [`pyin`] (and the shared YIN front end).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PyinOptions {
+    /// Lowest f0 in Hz. Default 61.735 (B1, a semitone below C2).
+    pub fmin: f64,
+    /// Highest f0 in Hz. Default 2217.461 (C♯7, a semitone above C7).
+    pub fmax: f64,
+    /// Length `W` of the YIN integration window in samples. Default 1689 (≈ 77 ms at
+    /// 22,050 Hz): with the longest lag for the default `fmin` (358 samples) the analysed span
+    /// is 2048 samples (≈ 93 ms), the frame length librosa's pyin uses.
+    pub win_length: usize,
+    /// Number of thresholds of the prior. Default 100.
+    pub n_thresholds: usize,
+    /// Beta prior shape parameters (integers). Default (2, 18): mean threshold 0.1.
+    pub beta: (u32, u32),
+    /// Boltzmann parameter of the prior over the order of dips. Default 2.
+    pub boltzmann: f64,
+    /// Pitch bin width in semitones. Default 0.1.
+    pub resolution: f64,
+    /// Largest pitch change in octaves per second. Default 35.92.
+    pub max_transition_rate: f64,
+    /// Probability of switching between voiced and unvoiced per frame. Default 0.01.
+    pub switch_prob: f64,
+    /// Share of a threshold's prior mass given to the lowest dip when no dip is below it.
+    /// Default 0.01.
+    pub no_trough_prob: f64,
+    /// Frames quieter than this RMS (full scale = 1) get no pitch candidates. Default 1e-4
+    /// (−80 dBFS): below any recorded melody, above the dither of digital silence.
+    pub min_rms: f64,
+}
+
+impl Default for PyinOptions {
+    fn default() -> Self {
+        PyinOptions {
+            fmin: 61.735,
+            fmax: 2217.461,
+            win_length: 1689,
+            n_thresholds: 100,
+            beta: (2, 18),
+            boltzmann: 2.0,
+            resolution: 0.1,
+            max_transition_rate: 35.92,
+            switch_prob: 0.01,
+            no_trough_prob: 0.01,
+            min_rms: 1e-4,
+        }
+    }
+}
+
+/// f0 per frame.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct PitchTrack {
+    /// Frame advance in seconds.
+    pub hop_seconds: f64,
+    /// f0 in Hz per frame; 0 when unvoiced.
+    pub f0: Vec<f64>,
+    /// Whether each frame is voiced (on the Viterbi path's voiced layer).
+    pub voiced: Vec<bool>,
+    /// Probability that each frame is voiced (sum of its candidates' probabilities), 0 … 1.
+    pub voiced_prob: Vec<f32>,
+    /// Every frame's f0 candidates as (Hz, probability), strongest per pitch bin.
+    #[serde(skip)]
+    pub candidates: Vec<Vec<(f32, f32)>>,
+}
+
+impl PitchTrack {
+    /// Time in seconds of frame `k`.
+    pub fn time(&self, k: usize) -> f64 {
+        k as f64 * self.hop_seconds
+    }
+
+    /// f0 of frame `k` in cents above `reference_hz` (e.g. 10 Hz for mir_eval's convention);
+    /// `None` when unvoiced.
+    pub fn cents(&self, k: usize, reference_hz: f64) -> Option<f64> {
+        let f = *self.f0.get(k)?;
+        (f > 0.0).then(|| 1200.0 * (f / reference_hz).log2())
+    }
+}
+
+/// The YIN front end: computes the cumulative mean normalised difference of one frame with a
+/// reusable FFT plan.
+pub struct Yin {
+    win_length: usize,
+    max_lag: usize,
+    size: usize,
+    forward: Arc<dyn RealToComplex<f32>>,
+    inverse: Arc<dyn ComplexToReal<f32>>,
+    buf_window: Vec<f32>,
+    buf_frame: Vec<f32>,
+    spec_window: Vec<Complex<f32>>,
+    spec_frame: Vec<Complex<f32>>,
+    scratch_fwd: Vec<Complex<f32>>,
+    scratch_inv: Vec<Complex<f32>>,
+    correlation: Vec<f32>,
+    difference: Vec<f64>,
+}
+
+impl std::fmt::Debug for Yin {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Yin")
+            .field("win_length", &self.win_length)
+            .field("max_lag", &self.max_lag)
+            .finish()
+    }
+}
+
+impl Yin {
+    /// Plans for windows of `win_length` samples and lags `0 ..= max_lag`.
+    pub fn new(win_length: usize, max_lag: usize) -> Yin {
+        let win_length = win_length.max(2);
+        let max_lag = max_lag.max(2);
+        let size = (win_length + max_lag + 1).next_power_of_two();
+        let mut planner = RealFftPlanner::<f32>::new();
+        let forward = planner.plan_fft_forward(size);
+        let inverse = planner.plan_fft_inverse(size);
+        Yin {
+            win_length,
+            max_lag,
+            size,
+            buf_window: forward.make_input_vec(),
+            buf_frame: forward.make_input_vec(),
+            spec_window: forward.make_output_vec(),
+            spec_frame: forward.make_output_vec(),
+            scratch_fwd: forward.make_scratch_vec(),
+            scratch_inv: inverse.make_scratch_vec(),
+            correlation: inverse.make_output_vec(),
+            difference: vec![0.0; max_lag + 1],
+            forward,
+            inverse,
+        }
+    }
+
+    /// Samples a frame must hold: `win_length + max_lag`.
+    pub fn frame_length(&self) -> usize {
+        self.win_length + self.max_lag
+    }
+
+    /// Cumulative mean normalised difference `d′(τ)`, τ = 0 ..= max_lag, of `frame`
+    /// (at least [`Yin::frame_length`] samples; shorter frames are zero-padded), into `out`.
+    pub fn cmndf(&mut self, frame: &[f32], out: &mut Vec<f64>) {
+        let (w, max_lag, size) = (self.win_length, self.max_lag, self.size);
+        let len = w + max_lag;
+        for (i, slot) in self.buf_frame.iter_mut().enumerate() {
+            *slot = if i < len {
+                frame.get(i).copied().unwrap_or(0.0)
+            } else {
+                0.0
+            };
+        }
+        for (i, slot) in self.buf_window.iter_mut().enumerate() {
+            *slot = if i < w { self.buf_frame[i] } else { 0.0 };
+        }
+        // Energies as prefix sums of squares (f64 to keep the differences exact enough).
+        let mut prefix = Vec::with_capacity(len + 1);
+        prefix.push(0.0f64);
+        let mut acc = 0.0f64;
+        for &x in &self.buf_frame[..len] {
+            acc += f64::from(x) * f64::from(x);
+            prefix.push(acc);
+        }
+        let ok_a = self
+            .forward
+            .process_with_scratch(
+                &mut self.buf_window,
+                &mut self.spec_window,
+                &mut self.scratch_fwd,
+            )
+            .is_ok();
+        let ok_b = self
+            .forward
+            .process_with_scratch(
+                &mut self.buf_frame,
+                &mut self.spec_frame,
+                &mut self.scratch_fwd,
+            )
+            .is_ok();
+        // r(τ) = Σ_j a_j b_{j+τ}  ⇔  R = conj(A) · B.
+        for (b, a) in self.spec_frame.iter_mut().zip(&self.spec_window) {
+            *b *= a.conj();
+        }
+        // The DC and Nyquist bins of a real signal's spectrum are real.
+        if let Some(first) = self.spec_frame.first_mut() {
+            first.im = 0.0;
+        }
+        if let Some(last) = self.spec_frame.last_mut() {
+            last.im = 0.0;
+        }
+        let ok_c = self
+            .inverse
+            .process_with_scratch(
+                &mut self.spec_frame,
+                &mut self.correlation,
+                &mut self.scratch_inv,
+            )
+            .is_ok();
+        out.clear();
+        out.resize(max_lag + 1, 1.0);
+        if !(ok_a && ok_b && ok_c) {
+            return;
+        }
+        let scale = 1.0 / size as f64;
+        let e0 = prefix[w];
+        for tau in 0..=max_lag {
+            let e_tau = prefix[tau + w] - prefix[tau];
+            let r = f64::from(self.correlation[tau]) * scale;
+            // Equation 7; rounding can make tiny values negative.
+            self.difference[tau] = (e0 + e_tau - 2.0 * r).max(0.0);
+        }
+        // Equation 8.
+        out[0] = 1.0;
+        let mut running = 0.0f64;
+        for (tau, (o, d)) in out.iter_mut().zip(&self.difference).enumerate().skip(1) {
+            running += d;
+            *o = if running > 0.0 {
+                d * tau as f64 / running
+            } else {
+                1.0
+            };
+        }
+    }
+}
+
+/// Copies the frame centred on sample `centre` (zero outside the signal) into `out`.
+fn centred_frame(signal: &[f32], centre: usize, length: usize, out: &mut Vec<f32>) {
+    out.clear();
+    let start = centre as isize - (length / 2) as isize;
+    out.extend((0..length).map(|i| {
+        let at = start + i as isize;
+        if at >= 0 {
+            signal.get(at as usize).copied().unwrap_or(0.0)
+        } else {
+            0.0
+        }
+    }));
+}
+
+/// Parabolic interpolation of the minimum at index `i` of `y` (step 5 of YIN): the offset of
+/// the vertex of the parabola through `(i−1, i, i+1)`, within ±1.
+fn parabolic_shift(y: &[f64], i: usize) -> f64 {
+    if i == 0 || i + 1 >= y.len() {
+        return 0.0;
+    }
+    let (a, b, c) = (y[i - 1], y[i], y[i + 1]);
+    let denominator = a - 2.0 * b + c;
+    if denominator.abs() < 1e-12 {
+        return 0.0;
+    }
+    (0.5 * (a - c) / denominator).clamp(-1.0, 1.0)
+}
+
+/// Value at the vertex of the parabola through `(i−1, i, i+1)` of `y` (the interpolated depth
+/// of a dip), between 0 and `y[i]`.
+fn parabolic_minimum(y: &[f64], i: usize) -> f64 {
+    if i == 0 || i + 1 >= y.len() {
+        return y.get(i).copied().unwrap_or(1.0);
+    }
+    let (a, b, c) = (y[i - 1], y[i], y[i + 1]);
+    let curvature = a - 2.0 * b + c;
+    if curvature <= 1e-12 {
+        return b;
+    }
+    (b - (a - c) * (a - c) / (8.0 * curvature)).clamp(0.0, b)
+}
+
+/// Lag range used for `fmin`..`fmax`: `floor(sr / fmax) ..= ceil(sr / fmin)`.
+fn lag_range(sample_rate: u32, fmin: f64, fmax: f64) -> (usize, usize) {
+    let sr = f64::from(sample_rate);
+    let fmin = fmin.max(1.0);
+    let fmax = fmax.max(fmin * 1.01).min(sr / 2.0);
+    let min_lag = ((sr / fmax).floor() as usize).max(2);
+    let max_lag = ((sr / fmin).ceil() as usize).max(min_lag + 2);
+    (min_lag, max_lag)
+}
+
+/// Plain YIN (steps 1–5 of de Cheveigné & Kawahara 2002): f0 in Hz per frame (0 where no dip
+/// falls below `threshold` — the paper's step 4 then takes the global minimum; here such a
+/// frame is reported unvoiced). Frames as in [`crate::audio`].
+pub fn yin(
+    signal: &[f32],
+    sample_rate: u32,
+    hop_length: usize,
+    options: &PyinOptions,
+    threshold: f64,
+) -> Vec<f64> {
+    let (min_lag, max_lag) = lag_range(sample_rate, options.fmin, options.fmax);
+    let mut analyser = Yin::new(options.win_length, max_lag);
+    let hop = hop_length.max(1);
+    let n_frames = 1 + signal.len() / hop;
+    let mut frame = Vec::new();
+    let mut d = Vec::new();
+    let mut f0 = Vec::with_capacity(n_frames);
+    for k in 0..n_frames {
+        centred_frame(signal, k * hop, analyser.frame_length(), &mut frame);
+        analyser.cmndf(&frame, &mut d);
+        let mut found = 0.0;
+        for tau in min_lag..max_lag {
+            let dip = d[tau] < d[tau - 1] && d[tau] <= d[tau + 1];
+            if dip && parabolic_minimum(&d, tau) < threshold {
+                let period = tau as f64 + parabolic_shift(&d, tau);
+                if period > 0.0 {
+                    found = f64::from(sample_rate) / period;
+                }
+                break;
+            }
+        }
+        f0.push(found);
+    }
+    f0
+}
+
+/// Regularised incomplete beta function I_x(a, b) for positive integers a, b:
+/// P(X ≥ a) for X ~ Binomial(a + b − 1, x) (Abramowitz & Stegun 26.5.24 with 6.6.4).
+pub fn beta_cdf(x: f64, a: u32, b: u32) -> f64 {
+    if x <= 0.0 {
+        return 0.0;
+    }
+    if x >= 1.0 {
+        return 1.0;
+    }
+    let n = a + b - 1;
+    let mut total = 0.0;
+    for j in a..=n {
+        total += binomial(n, j) * x.powi(j as i32) * (1.0 - x).powi((n - j) as i32);
+    }
+    total.clamp(0.0, 1.0)
+}
+
+fn binomial(n: u32, k: u32) -> f64 {
+    let k = k.min(n - k);
+    (0..k).fold(1.0, |acc, i| acc * f64::from(n - i) / f64::from(i + 1))
+}
+
+/// One frame's pitch candidates: (f0 in Hz, probability).
+type Candidates = Vec<(f64, f64)>;
+
+/// The pYIN candidate distribution of one frame from its `d′` (see the module docs).
+fn frame_candidates(
+    d: &[f64],
+    min_lag: usize,
+    max_lag: usize,
+    sample_rate: u32,
+    beta_probs: &[f64],
+    options: &PyinOptions,
+) -> Candidates {
+    let window = &d[min_lag..=max_lag.min(d.len() - 1)];
+    let n = window.len();
+    if n < 2 {
+        return Vec::new();
+    }
+    let (lo, hi) = window
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
+    if hi - lo < 1e-9 {
+        // A flat d′ (digital silence): no dip, no candidate.
+        return Vec::new();
+    }
+    // Dips: strict local minima (left strictly greater, right at least equal); the ends count
+    // when they are below their one neighbour.
+    let mut troughs: Vec<usize> = Vec::new();
+    for i in 0..n {
+        let left = if i == 0 { f64::INFINITY } else { window[i - 1] };
+        let right = if i + 1 == n {
+            f64::INFINITY
+        } else {
+            window[i + 1]
+        };
+        if window[i] < left && window[i] <= right {
+            troughs.push(i);
+        }
+    }
+    if troughs.is_empty() {
+        return Vec::new();
+    }
+    // Depth of each dip, interpolated between lags (see the module docs).
+    let height: Vec<f64> = troughs
+        .iter()
+        .map(|&i| parabolic_minimum(window, i))
+        .collect();
+    let n_thresholds = beta_probs.len();
+    let lambda = options.boltzmann;
+    let mut probs = vec![0.0f64; troughs.len()];
+    let mut global_min = 0usize;
+    for t in 0..troughs.len() {
+        if height[t] < height[global_min] {
+            global_min = t;
+        }
+    }
+    let mut below_none = 0.0;
+    for (s, &mass) in beta_probs.iter().enumerate() {
+        let threshold = (s + 1) as f64 / n_thresholds as f64;
+        let count = height.iter().filter(|&&h| h < threshold).count();
+        if count == 0 {
+            below_none += mass;
+            continue;
+        }
+        // Boltzmann pmf over ranks 0 … count−1: (1 − e^{−λ}) e^{−λ r} / (1 − e^{−λ count}).
+        let norm = (1.0 - (-lambda).exp()) / (1.0 - (-lambda * count as f64).exp());
+        let mut rank = 0usize;
+        for (t, &h) in height.iter().enumerate() {
+            if h < threshold {
+                probs[t] += mass * norm * (-lambda * rank as f64).exp();
+                rank += 1;
+            }
+        }
+    }
+    probs[global_min] += options.no_trough_prob * below_none;
+    let sr = f64::from(sample_rate);
+    troughs
+        .iter()
+        .zip(probs)
+        .filter(|(_, p)| *p > 0.0)
+        .map(|(&i, p)| {
+            let period = (min_lag + i) as f64 + parabolic_shift(window, i);
+            (sr / period.max(1.0), p)
+        })
+        .collect()
+}
+
+/// pYIN f0 tracking (see the module docs). `hop_length` in samples; frames as in
+/// [`crate::audio`]. Returns one value per frame, `1 + len / hop_length` frames.
+pub fn pyin(
+    signal: &[f32],
+    sample_rate: u32,
+    hop_length: usize,
+    options: &PyinOptions,
+) -> PitchTrack {
+    let hop = hop_length.max(1);
+    let sr = f64::from(sample_rate);
+    let (min_lag, max_lag) = lag_range(sample_rate, options.fmin, options.fmax);
+    let fmin = sr / max_lag as f64;
+    let fmin = fmin.max(options.fmin);
+    let fmax = (sr / min_lag as f64).min(options.fmax.max(fmin * 1.01));
+    let mut analyser = Yin::new(options.win_length, max_lag);
+    let n_frames = 1 + signal.len() / hop;
+
+    let n_thresholds = options.n_thresholds.max(1);
+    let (a, b) = (options.beta.0.max(1), options.beta.1.max(1));
+    let beta_probs: Vec<f64> = (0..n_thresholds)
+        .map(|i| {
+            beta_cdf((i + 1) as f64 / n_thresholds as f64, a, b)
+                - beta_cdf(i as f64 / n_thresholds as f64, a, b)
+        })
+        .collect();
+
+    let resolution = options.resolution.clamp(0.01, 1.0);
+    let bins_per_semitone = (1.0 / resolution).ceil();
+    let n_bins = ((12.0 * bins_per_semitone * (fmax / fmin).log2()).floor() as usize + 1).max(2);
+    let bin_of = |f: f64| -> usize {
+        let x = (12.0 * bins_per_semitone * (f / fmin).log2()).round();
+        x.clamp(0.0, (n_bins - 1) as f64) as usize
+    };
+
+    // Observations: per frame a few (bin, probability, f0) candidates.
+    let mut candidates: Vec<Vec<(usize, f64, f64)>> = Vec::with_capacity(n_frames);
+    let mut voiced_prob = Vec::with_capacity(n_frames);
+    let mut frame = Vec::new();
+    let mut d = Vec::new();
+    for k in 0..n_frames {
+        centred_frame(signal, k * hop, analyser.frame_length(), &mut frame);
+        let energy = frame.iter().map(|x| f64::from(*x).powi(2)).sum::<f64>();
+        let rms = (energy / frame.len().max(1) as f64).sqrt();
+        let found = if rms < options.min_rms {
+            Vec::new()
+        } else {
+            analyser.cmndf(&frame, &mut d);
+            frame_candidates(&d, min_lag, max_lag, sample_rate, &beta_probs, options)
+        };
+        let mut per_bin: Vec<(usize, f64, f64)> = Vec::with_capacity(found.len());
+        for (f, p) in found {
+            let bin = bin_of(f);
+            match per_bin.iter_mut().find(|c| c.0 == bin) {
+                Some(c) => {
+                    if p > c.1 {
+                        c.2 = f;
+                    }
+                    c.1 += p;
+                }
+                None => per_bin.push((bin, p, f)),
+            }
+        }
+        let total: f64 = per_bin.iter().map(|c| c.1).sum();
+        voiced_prob.push(total.clamp(0.0, 1.0) as f32);
+        candidates.push(per_bin);
+    }
+
+    let max_semitones = (options.max_transition_rate * 12.0 * hop as f64 / sr).round();
+    let half_width = (max_semitones * bins_per_semitone) as usize / 2;
+    let states = viterbi(&candidates, &voiced_prob, n_bins, half_width, options);
+
+    let mut f0 = Vec::with_capacity(n_frames);
+    let mut voiced = Vec::with_capacity(n_frames);
+    for (k, &(is_voiced, bin)) in states.iter().enumerate() {
+        voiced.push(is_voiced);
+        if !is_voiced {
+            f0.push(0.0);
+            continue;
+        }
+        let centre = fmin * 2f64.powf(bin as f64 / (12.0 * bins_per_semitone));
+        let own = candidates[k].iter().find(|c| c.0 == bin).map(|c| c.2);
+        f0.push(own.unwrap_or(centre));
+    }
+    let candidates = candidates
+        .iter()
+        .map(|frame| frame.iter().map(|c| (c.2 as f32, c.1 as f32)).collect())
+        .collect();
+    PitchTrack {
+        hop_seconds: hop as f64 / sr,
+        f0,
+        voiced,
+        voiced_prob,
+        candidates,
+    }
+}
+
+/// `best[j] = max(best[j], source[j] + w)`, recording `j + offset` as the source index where
+/// the source wins.
+fn sweep(best: &mut [f32], arg: &mut [u32], source: &[f32], offset: u32, w: f32) {
+    for (j, ((b, a), s)) in best.iter_mut().zip(arg.iter_mut()).zip(source).enumerate() {
+        let c = s + w;
+        let win = c > *b;
+        *b = if win { c } else { *b };
+        *a = if win { j as u32 + offset } else { *a };
+    }
+}
+
+/// Viterbi decoding of the pYIN HMM: per frame (voiced?, pitch bin).
+fn viterbi(
+    candidates: &[Vec<(usize, f64, f64)>],
+    voiced_prob: &[f32],
+    n_bins: usize,
+    half_width: usize,
+    options: &PyinOptions,
+) -> Vec<(bool, usize)> {
+    let n_frames = candidates.len();
+    if n_frames == 0 {
+        return Vec::new();
+    }
+    const NEG: f32 = f32::NEG_INFINITY;
+    // Triangular transition weights over |Δbin| ≤ half_width (scipy's symmetric `triang`
+    // window of width 2h+1: 1 − d/(h+1)), rows normalised over the bins that exist.
+    let h = half_width;
+    let log_w: Vec<f32> = (0..=h)
+        .map(|d| (1.0 - d as f64 / (h as f64 + 1.0)).ln() as f32)
+        .collect();
+    let row_log_norm: Vec<f32> = (0..n_bins)
+        .map(|i| {
+            let lo = i.saturating_sub(h);
+            let hi = (i + h).min(n_bins - 1);
+            let sum: f64 = (lo..=hi)
+                .map(|j| 1.0 - i.abs_diff(j) as f64 / (h as f64 + 1.0))
+                .sum();
+            sum.ln() as f32
+        })
+        .collect();
+    let p = options.switch_prob.clamp(1e-9, 1.0 - 1e-9);
+    let log_stay = (1.0 - p).ln() as f32;
+    let log_switch = p.ln() as f32;
+    let n = n_bins;
+
+    // Scores: voiced layer [0, n), unvoiced layer [n, 2n). Back-pointers: source state index.
+    // Uniform initial distribution over all 2n states (as librosa's pyin), times the first
+    // frame's observations.
+    let mut score = vec![NEG; 2 * n];
+    let log_init = (1.0 / (2 * n) as f64).ln() as f32;
+    let first_u = ((1.0 - f64::from(voiced_prob[0])).max(1e-30) / n as f64).ln() as f32;
+    for s in score[n..].iter_mut() {
+        *s = log_init + first_u;
+    }
+    for &(j, prob, _) in &candidates[0] {
+        if prob > 0.0 && j < n {
+            score[j] = log_init + prob.min(1.0).ln() as f32;
+        }
+    }
+    let mut back: Vec<u16> = vec![0; n_frames * 2 * n];
+    let mut source = vec![NEG; 2 * n];
+    let mut next = vec![NEG; 2 * n];
+    let mut arg = vec![0u16; 2 * n];
+    let mut arg_wide = vec![0u32; 2 * n];
+    for t in 1..n_frames {
+        // Fold the row normalisation into the source scores.
+        for i in 0..n {
+            source[i] = score[i] - row_log_norm[i];
+            source[n + i] = score[n + i] - row_log_norm[i];
+        }
+        // Unvoiced targets: from unvoiced (stay) and voiced (switch) sources within the band.
+        // The band is swept one offset at a time over contiguous slices, a branch-free
+        // compare-and-select per state that the compiler vectorises.
+        {
+            let (_, next_u) = next.split_at_mut(n);
+            let (_, arg_u) = arg_wide.split_at_mut(n);
+            let source_u = &source[n..];
+            next_u.fill(NEG);
+            for (j, a) in arg_u.iter_mut().enumerate() {
+                *a = j as u32;
+            }
+            for (d, w) in log_w.iter().enumerate() {
+                let w = w + log_stay;
+                if d >= n {
+                    break;
+                }
+                // Sources i = j − d.
+                sweep(&mut next_u[d..], &mut arg_u[d..], &source_u[..n - d], 0, w);
+                if d > 0 {
+                    // Sources i = j + d.
+                    sweep(
+                        &mut next_u[..n - d],
+                        &mut arg_u[..n - d],
+                        &source_u[d..],
+                        d as u32,
+                        w,
+                    );
+                }
+            }
+            for (a, wide) in arg[n..].iter_mut().zip(arg_u.iter()) {
+                *a = (n as u32 + *wide) as u16;
+            }
+        }
+        // Voiced sources alive at t − 1 (finite score) also reach unvoiced targets.
+        for i in 0..n {
+            if source[i] == NEG {
+                continue;
+            }
+            let lo = i.saturating_sub(h);
+            let hi = (i + h).min(n - 1);
+            for j in lo..=hi {
+                let c = source[i] + log_w[i.abs_diff(j)] + log_switch;
+                if c > next[n + j] {
+                    next[n + j] = c;
+                    arg[n + j] = i as u16;
+                }
+            }
+        }
+        let log_unvoiced = ((1.0 - f64::from(voiced_prob[t])).max(1e-30) / n as f64).ln() as f32;
+        for v in next[n..].iter_mut() {
+            *v += log_unvoiced;
+        }
+        // Voiced targets: only bins with a candidate.
+        next[..n].fill(NEG);
+        for &(j, prob, _) in &candidates[t] {
+            if prob <= 0.0 {
+                continue;
+            }
+            let lo = j.saturating_sub(h);
+            let hi = (j + h).min(n - 1);
+            let mut best = NEG;
+            let mut best_i = n + j;
+            for i in lo..=hi {
+                let w = log_w[i.abs_diff(j)];
+                let cv = source[i] + w + log_stay;
+                if cv > best {
+                    best = cv;
+                    best_i = i;
+                }
+                let cu = source[n + i] + w + log_switch;
+                if cu > best {
+                    best = cu;
+                    best_i = n + i;
+                }
+            }
+            next[j] = best + prob.min(1.0).ln() as f32;
+            arg[j] = best_i as u16;
+        }
+        // Keep scores near 0 so f32 keeps its precision over long files.
+        let max = next.iter().copied().fold(NEG, f32::max);
+        let offset = if max.is_finite() { max } else { 0.0 };
+        for (s, v) in score.iter_mut().zip(&next) {
+            *s = v - offset;
+        }
+        back[t * 2 * n..(t + 1) * 2 * n].copy_from_slice(&arg);
+    }
+    // Trace back from the best final state.
+    let mut state = score
+        .iter()
+        .enumerate()
+        .max_by(|a, b| a.1.total_cmp(b.1).then(b.0.cmp(&a.0)))
+        .map_or(n, |(i, _)| i);
+    let mut path = vec![(false, 0usize); n_frames];
+    for t in (0..n_frames).rev() {
+        path[t] = (state < n, state % n);
+        if t > 0 {
+            state = usize::from(back[t * 2 * n + state]);
+        }
+    }
+    path
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sine(hz: f64, seconds: f64) -> Vec<f32> {
+        let sr = 22_050.0;
+        (0..(seconds * sr) as usize)
+            .map(|n| (0.5 * (2.0 * std::f64::consts::PI * hz * n as f64 / sr).sin()) as f32)
+            .collect()
+    }
+
+    /// The difference function straight from equation 6, the obviously-correct reference.
+    fn naive_cmndf(x: &[f32], w: usize, max_lag: usize) -> Vec<f64> {
+        let d: Vec<f64> = (0..=max_lag)
+            .map(|tau| {
+                (0..w)
+                    .map(|j| {
+                        let a = f64::from(x.get(j).copied().unwrap_or(0.0));
+                        let b = f64::from(x.get(j + tau).copied().unwrap_or(0.0));
+                        (a - b) * (a - b)
+                    })
+                    .sum()
+            })
+            .collect();
+        let mut out = vec![1.0; max_lag + 1];
+        let mut running = 0.0;
+        for tau in 1..=max_lag {
+            running += d[tau];
+            out[tau] = if running > 0.0 {
+                d[tau] * tau as f64 / running
+            } else {
+                1.0
+            };
+        }
+        out
+    }
+
+    #[test]
+    fn fft_difference_matches_equation_6() {
+        let mut seed = 99u64;
+        for (w, max_lag) in [(16usize, 8usize), (64, 40), (100, 77), (1024, 338)] {
+            let x: Vec<f32> = (0..w + max_lag)
+                .map(|_| {
+                    seed = seed
+                        .wrapping_mul(6364136223846793005)
+                        .wrapping_add(1442695040888963407);
+                    ((seed >> 33) as f32 / (1u64 << 31) as f32) - 0.5
+                })
+                .collect();
+            let mut yin = Yin::new(w, max_lag);
+            let mut got = Vec::new();
+            yin.cmndf(&x, &mut got);
+            let expected = naive_cmndf(&x, w, max_lag);
+            for (tau, (g, e)) in got.iter().zip(&expected).enumerate() {
+                assert!(
+                    (g - e).abs() < 1e-3,
+                    "W {w}: first difference at lag {tau}: {g} vs {e}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn beta_2_18_cdf() {
+        // Beta(2, 18): mean 0.1; I_x(2,18) = 1 − (1−x)^19 − 19x(1−x)^18 (binomial form).
+        let x: f64 = 0.1;
+        let expected = 1.0 - (1.0 - x).powi(19) - 19.0 * x * (1.0 - x).powi(18);
+        assert!((beta_cdf(x, 2, 18) - expected).abs() < 1e-12);
+        assert_eq!(beta_cdf(0.0, 2, 18), 0.0);
+        assert_eq!(beta_cdf(1.0, 2, 18), 1.0);
+    }
+
+    #[test]
+    fn yin_and_pyin_find_a4() {
+        // A4 = 440 Hz (ISO 16).
+        let s = sine(440.0, 1.0);
+        let opts = PyinOptions::default();
+        let f = yin(&s, 22_050, 512, &opts, 0.1);
+        let mid = f[f.len() / 2];
+        assert!((1200.0 * (mid / 440.0).log2()).abs() < 5.0, "yin {mid}");
+        let track = pyin(&s, 22_050, 512, &opts);
+        let mid = track.f0[track.f0.len() / 2];
+        assert!(track.voiced[track.f0.len() / 2]);
+        assert!((1200.0 * (mid / 440.0).log2()).abs() < 5.0, "pyin {mid}");
+    }
+
+    #[test]
+    fn silence_is_unvoiced() {
+        let track = pyin(&vec![0.0; 22_050], 22_050, 512, &PyinOptions::default());
+        assert!(track.voiced.iter().all(|v| !v));
+    }
+}
