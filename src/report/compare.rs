@@ -44,6 +44,10 @@ pub struct CompareRecord {
     pub parameters: AlignParams,
     /// Overall similarity in [0, 1].
     pub similarity: f64,
+    /// The null model behind the E-values (`null` when not computed).
+    pub null_model: Option<crate::stats::null::NullSummary>,
+    /// The reference corpus consulted (`null` when none was given).
+    pub corpus: Option<crate::compare::CorpusSummary>,
     /// Shared passages, strongest first.
     pub passages: Vec<Passage>,
 }
@@ -75,6 +79,8 @@ pub fn record(a: &Piece, b: &Piece, params: &AlignParams, result: &Comparison) -
         b: work(b, result.notes_b, result.unmatched_b),
         parameters: params.clone(),
         similarity: result.similarity,
+        null_model: result.null_model.clone(),
+        corpus: result.corpus.clone(),
         passages: result.passages.clone(),
     }
 }
@@ -100,6 +106,15 @@ fn note_name(piece: &Piece, index: usize) -> String {
             Some(s) => s.name(),
             None => pitch_name(n.pitch.0),
         })
+}
+
+/// An E-value in a short form: `3e-29`, `0.004`, `1.2`.
+pub fn format_e_value(e: f64) -> String {
+    if e >= 0.01 {
+        format!("{e:.2}")
+    } else {
+        format!("{e:.0e}")
+    }
 }
 
 /// The human listing.
@@ -129,12 +144,12 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
         return out;
     }
     out.push_str(&format!(
-        "\n {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>8}  {:>5}  {:>5}\n",
-        "#", "in A", "in B", "notes A/B", "B relative to A", "tempo", "score", "PMI"
+        "\n {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>8}  {:>5}  {:>5}  {:>8}\n",
+        "#", "in A", "in B", "notes A/B", "B relative to A", "tempo", "score", "PMI", "E-value"
     ));
     for p in &result.passages {
         out.push_str(&format!(
-            " {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>7.2}x  {:>5}  {:>5.1}\n",
+            " {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>7.2}x  {:>5}  {:>5.1}  {:>8}\n",
             p.rank,
             bars(&p.a),
             bars(&p.b),
@@ -142,13 +157,24 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
             p.transposition,
             p.tempo_ratio,
             p.score,
-            p.pmi
+            p.pmi,
+            p.significance
+                .as_ref()
+                .map_or_else(|| "-".to_string(), |s| format_e_value(s.e_value))
         ));
     }
     out.push_str(
         "\n tempo: how much faster B performs the passage; PMI: percent melodic identity \
          (identical notes after transposing, both sides counted)\n",
     );
+    if let Some(null) = &result.null_model {
+        out.push_str(&format!(
+            " E-value: how many passages this strong to expect between unrelated melodies of \
+             the same make-up ({} shuffled pairs, seed {}; shuffled best scores {:.0} ± {:.0}, \
+             highest {})\n",
+            null.shuffles, null.seed, null.mean, null.sd, null.max
+        ));
+    }
     for p in &result.passages {
         out.push_str(&render_passage(a, b, p));
     }

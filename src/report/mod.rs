@@ -1,4 +1,8 @@
-//! Rendering results: human listings and JSON records.
+//! Rendering results: human listings, JSON records, the PDF exhibit and passage exports.
 
 pub mod compare;
+pub mod exhibit;
+pub mod export;
 pub mod inspect;
+pub mod notation;
+pub mod pdf;
