@@ -11,6 +11,7 @@
 #![cfg_attr(test, allow(clippy::unwrap_used, clippy::expect_used))]
 
 pub mod align;
+pub mod audio;
 pub mod compare;
 pub mod features;
 pub mod ingest;

@@ -178,10 +178,11 @@ pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment>
     let mut blocked = Blocked::default();
     // Best hit per transposition, and whether it was computed with the current blocks.
     let all: Vec<u8> = (0..12).collect();
-    let mut hits: Vec<(Option<Hit>, bool)> = scan::scan_many(&scorer, params, &all, &blocked)
-        .into_iter()
-        .map(|hit| (hit, true))
-        .collect();
+    let mut hits: Vec<(Option<Hit>, bool)> =
+        scan::scan_many::<true>(&scorer, params, &all, &blocked)
+            .into_iter()
+            .map(|hit| (hit, true))
+            .collect();
     let mut out = Vec::new();
     let mut guard = 0usize;
     while out.len() < params.max_passages && guard < 12 * (params.max_passages + 4) * 4 {
@@ -239,7 +240,7 @@ pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
     }
     let scorer = Scorer::new(a, b, params);
     let all: Vec<u8> = (0..12).collect();
-    scan::scan_many(&scorer, params, &all, &Blocked::default())
+    scan::scan_many::<false>(&scorer, params, &all, &Blocked::default())
         .into_iter()
         .flatten()
         .map(|hit| hit.score)

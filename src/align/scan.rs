@@ -102,7 +102,10 @@ impl Lane {
 ///
 /// Rows are shared by the transpositions: the transposition-free part of the pair score
 /// (interval, rhythm, metre) is computed once per cell, the pitch term is one lookup.
-pub(crate) fn scan_many(
+///
+/// With `TRACK` false, path origins are not kept (the hits' `start` is meaningless): the
+/// score-only form used by the null model, where only the best score matters.
+pub(crate) fn scan_many<const TRACK: bool>(
     scorer: &Scorer,
     params: &AlignParams,
     ts: &[u8],
@@ -128,7 +131,7 @@ pub(crate) fn scan_many(
             for (pc, value) in lane.pitch_of_b.iter_mut().enumerate() {
                 *value = scorer.pitch_by_class(ai, pc as u8, lane.t);
             }
-            scan_row(
+            scan_row::<TRACK>(
                 scorer,
                 params,
                 lane,
@@ -147,12 +150,14 @@ pub(crate) fn scan_many(
 
 /// Scans all cells under transposition `t`; see [`scan_many`].
 pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Blocked) -> Option<Hit> {
-    scan_many(scorer, params, &[t], blocked).pop().flatten()
+    scan_many::<true>(scorer, params, &[t], blocked)
+        .pop()
+        .flatten()
 }
 
 /// One row of the recurrence for one transposition.
 #[inline(always)]
-fn scan_row(
+fn scan_row<const TRACK: bool>(
     scorer: &Scorer,
     params: &AlignParams,
     lane: &mut Lane,
@@ -198,7 +203,9 @@ fn scan_row(
         let from_e = e - extend;
         if from_h >= from_e {
             e = from_h;
-            e_origin = origin[cur + j - 1];
+            if TRACK {
+                e_origin = origin[cur + j - 1];
+            }
         } else {
             e = from_e;
         }
@@ -208,14 +215,18 @@ fn scan_row(
         let from_f = f[j] - extend;
         if from_h >= from_f {
             f[j] = from_h;
-            f_origin[j] = origin[up + j];
+            if TRACK {
+                f_origin[j] = origin[up + j];
+            }
         } else {
             f[j] = from_f;
         }
         // Match or mismatch on the diagonal.
         let diag = h[up + j - 1];
         let mut value = diag + context[bj] + pitch_of_b[pc_b[bj] as usize];
-        let mut from = if diag > 0 {
+        let mut from = if !TRACK {
+            0
+        } else if diag > 0 {
             origin[up + j - 1]
         } else {
             pack(i, j)
@@ -235,7 +246,9 @@ fn scan_row(
                 let prev = h[up + j - k];
                 if prev + s > value {
                     value = prev + s;
-                    from = if prev > 0 {
+                    from = if !TRACK {
+                        0
+                    } else if prev > 0 {
                         origin[up + j - k]
                     } else {
                         pack(i, j - k + 1)
@@ -250,7 +263,9 @@ fn scan_row(
                 let prev = h[row + j - 1];
                 if prev + s > value {
                     value = prev + s;
-                    from = if prev > 0 {
+                    from = if !TRACK {
+                        0
+                    } else if prev > 0 {
                         origin[row + j - 1]
                     } else {
                         pack(i - k + 1, j)
@@ -260,10 +275,12 @@ fn scan_row(
         }
         if value > 0 {
             h[cur + j] = value;
-            origin[cur + j] = from;
+            if TRACK {
+                origin[cur + j] = from;
+            }
             left = value;
             if value > best.score {
-                let (si, sj) = unpack(from);
+                let (si, sj) = if TRACK { unpack(from) } else { (1, 1) };
                 *best = Hit {
                     score: value,
                     start: (si - 1, sj - 1),

@@ -39,6 +39,7 @@ pub enum Command {
   collatio inspect song.mid --track 2 --channel 1 --bars 9-24
   collatio inspect score.mxl --part P2 --voice 1 --format json > melody.json
   collatio inspect score.musicxml --unfold-repeats
+  collatio inspect recording.flac --meter 3/4 --downbeat 0.42 --export-midi melody.mid
 
 Exit codes:
   0  success
@@ -46,7 +47,7 @@ Exit codes:
   2  usage error (bad option, or a selection that matches nothing)
   3  input error (the file could not be read)"
     )]
-    Inspect(InspectArgs),
+    Inspect(Box<InspectArgs>),
     /// Find the melodic passages two pieces share, and measure each.
     #[command(
         long_about = "Find every passage of melody that two pieces share, whatever their key, \
@@ -62,14 +63,22 @@ Examples:
   collatio compare demo/harbour-lights.musicxml demo/paper-boats.musicxml
   collatio compare a.mid b.musicxml --select-a track=2 --select-b part=P1,voice=1
   collatio compare a.mxl b.mxl --select-b bars=17-40 --format json > findings.json
+  collatio compare a.musicxml b.mid --pdf exhibit.pdf --json findings.json --export passages/ \
+      --case-label 'Holloway v. Wren' --date 2025-06-01 --paper letter
 
 Exit codes:
   0  success
   1  compared, but some input was read with warnings
-  2  usage error (bad option, or a selection that matches nothing)
-  3  input error (a file could not be read)"
+  2  usage error (bad option, a selection that matches nothing, or an output that
+     would overwrite an input)
+  3  input error (a file could not be read), or an output file could not be written"
     )]
     Compare(Box<CompareArgs>),
+    /// Build a reference corpus index of prior art.
+    #[command(subcommand)]
+    Corpus(super::corpus::CorpusCommand),
+    /// Look for a melody in a corpus index: best matches with their passages.
+    Search(Box<super::corpus::SearchArgs>),
 }
 
 #[derive(Debug, Args)]
@@ -93,11 +102,134 @@ pub struct CompareArgs {
     pub alignment: AlignmentArgs,
 
     #[command(flatten)]
+    pub statistics: StatisticsArgs,
+
+    #[command(flatten)]
+    pub audio: AudioArgs,
+
+    #[command(flatten)]
     pub limits: LimitArgs,
 
     /// Output format.
     #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
     pub format: OutputFormat,
+
+    #[command(flatten)]
+    pub exhibit: ExhibitArgs,
+}
+
+/// Files written besides the listing: the PDF exhibit, the JSON record, passage exports.
+#[derive(Debug, Args)]
+pub struct ExhibitArgs {
+    /// Write the PDF exhibit to FILE.
+    #[arg(long, value_name = "FILE", help_heading = "OUTPUT")]
+    pub pdf: Option<PathBuf>,
+    /// Write the JSON record (as --format json prints it) to FILE.
+    #[arg(long, value_name = "FILE", help_heading = "OUTPUT")]
+    pub json: Option<PathBuf>,
+    /// Write each passage as MusicXML and MIDI into DIR (created if missing).
+    #[arg(long, value_name = "DIR", help_heading = "OUTPUT")]
+    pub export: Option<PathBuf>,
+    /// Paper size of the PDF.
+    #[arg(long, value_enum, default_value_t = PaperArg::A4, help_heading = "OUTPUT")]
+    pub paper: PaperArg,
+    /// Case label printed on every page of the PDF.
+    #[arg(long, value_name = "TEXT", help_heading = "OUTPUT")]
+    pub case_label: Option<String>,
+    /// Name of work A in the PDF and exports (default: its title, else its file name).
+    #[arg(long, value_name = "TEXT", help_heading = "OUTPUT")]
+    pub label_a: Option<String>,
+    /// Name of work B in the PDF and exports.
+    #[arg(long, value_name = "TEXT", help_heading = "OUTPUT")]
+    pub label_b: Option<String>,
+    /// Date printed on the PDF, YYYY-MM-DD (default: from SOURCE_DATE_EPOCH, else none).
+    #[arg(long, value_name = "YYYY-MM-DD", help_heading = "OUTPUT")]
+    pub date: Option<String>,
+    /// Tonic of the common key passages are shown in (C, G, Eb, F#, ...).
+    #[arg(long, value_name = "KEY", default_value = "C", help_heading = "OUTPUT")]
+    pub common_key: String,
+}
+
+/// Paper sizes for --paper.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum PaperArg {
+    /// ISO A4, 210 x 297 mm.
+    A4,
+    /// US Letter, 8.5 x 11 in.
+    Letter,
+}
+
+impl ExhibitArgs {
+    /// Whether any file output was asked for.
+    pub fn any(&self) -> bool {
+        self.pdf.is_some() || self.json.is_some() || self.export.is_some()
+    }
+
+    /// The library's options and outputs; the date follows --date, else `source_date_epoch`.
+    pub fn options(
+        &self,
+        source_date_epoch: Option<&str>,
+    ) -> Result<
+        (
+            collatio::report::exhibit::ExhibitOptions,
+            collatio::report::exhibit::Outputs,
+        ),
+        collatio::report::exhibit::ExhibitError,
+    > {
+        use collatio::report::exhibit::{resolve_date, ExhibitError, ExhibitOptions, Outputs};
+        if collatio::report::notation::parse_tonic(&self.common_key).is_none() {
+            return Err(ExhibitError::BadKey(self.common_key.clone()));
+        }
+        let options = ExhibitOptions {
+            paper: match self.paper {
+                PaperArg::A4 => collatio::report::pdf::layout::Paper::A4,
+                PaperArg::Letter => collatio::report::pdf::layout::Paper::Letter,
+            },
+            case_label: self.case_label.clone(),
+            label_a: self.label_a.clone(),
+            label_b: self.label_b.clone(),
+            date: resolve_date(self.date.as_deref(), source_date_epoch)?,
+            common_key: self.common_key.clone(),
+            piano_roll: false,
+        };
+        let outputs = Outputs {
+            pdf: self.pdf.clone(),
+            json: self.json.clone(),
+            export_dir: self.export.clone(),
+        };
+        Ok((options, outputs))
+    }
+}
+
+/// The null model of unrelated melodies.
+#[derive(Debug, Args)]
+pub struct StatisticsArgs {
+    /// Shuffled pairs scored for the null model (0 = no E-values).
+    #[arg(
+        long,
+        default_value_t = 100,
+        value_name = "N",
+        help_heading = "STATISTICS"
+    )]
+    pub shuffles: usize,
+    /// Seed of the shuffles' random generator.
+    #[arg(long, default_value_t = 20_261_201, help_heading = "STATISTICS")]
+    pub seed: u64,
+    /// Corpus index (from `collatio corpus build`): how common each passage's figure is, and a
+    /// corpus-weighted similarity.
+    #[arg(long, value_name = "FILE", help_heading = "STATISTICS")]
+    pub corpus: Option<PathBuf>,
+}
+
+impl StatisticsArgs {
+    /// The library parameters.
+    pub fn null_params(&self) -> collatio::stats::null::NullParams {
+        collatio::stats::null::NullParams {
+            shuffles: self.shuffles,
+            seed: self.seed,
+            ..collatio::stats::null::NullParams::default()
+        }
+    }
 }
 
 /// Scoring of the alignment, in points per note pair.
@@ -268,7 +400,8 @@ pub enum OutputFormat {
 
 #[derive(Debug, Args)]
 pub struct InspectArgs {
-    /// MusicXML (.musicxml, .xml, .mxl) or MIDI (.mid) file; the format is read from the content.
+    /// MusicXML (.musicxml, .xml, .mxl), MIDI (.mid) or audio (WAV, FLAC, MP3, Ogg Vorbis,
+    /// AAC/M4A, AIFF) file; the format is read from the content.
     pub file: PathBuf,
 
     #[command(flatten)]
@@ -279,11 +412,145 @@ pub struct InspectArgs {
     pub unfold_repeats: bool,
 
     #[command(flatten)]
+    pub audio: AudioArgs,
+
+    #[command(flatten)]
     pub limits: LimitArgs,
 
     /// Output format.
     #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
     pub format: OutputFormat,
+
+    /// Also write the melody as a Standard MIDI File (e.g. a transcription to correct).
+    #[arg(long, value_name = "FILE.mid", help_heading = "OUTPUT")]
+    pub export_midi: Option<PathBuf>,
+}
+
+/// A meter written as N/D, e.g. 3/4 or 6/8.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Meter(pub u32, pub u32);
+
+impl std::str::FromStr for Meter {
+    type Err = String;
+
+    fn from_str(text: &str) -> Result<Self, Self::Err> {
+        let (n, d) = text
+            .trim()
+            .split_once('/')
+            .ok_or_else(|| format!("meter '{text}' should look like 3/4 or 6/8"))?;
+        let n: u32 = n
+            .trim()
+            .parse()
+            .map_err(|_| format!("meter '{text}': '{n}' is not a number of beats"))?;
+        let d: u32 = d
+            .trim()
+            .parse()
+            .map_err(|_| format!("meter '{text}': '{d}' is not a beat unit"))?;
+        if n == 0 || n > 64 || !matches!(d, 1 | 2 | 4 | 8 | 16 | 32) {
+            return Err(format!(
+                "meter '{text}': beats must be 1-64 and the unit 1, 2, 4, 8, 16 or 32"
+            ));
+        }
+        Ok(Meter(n, d))
+    }
+}
+
+/// How audio recordings are decoded and analysed (ignored for scores and MIDI).
+#[derive(Debug, Args)]
+pub struct AudioArgs {
+    /// Analyse audio from this time on, in seconds.
+    #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
+    pub from: Option<f64>,
+    /// Analyse audio up to this time, in seconds.
+    #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
+    pub to: Option<f64>,
+    /// Meter of the recording, e.g. 3/4 (bars are estimated; 4/4 when not given).
+    #[arg(long, value_name = "N/D", help_heading = "AUDIO")]
+    pub meter: Option<Meter>,
+    /// Time of a downbeat in the recording, in seconds (estimated when not given).
+    #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
+    pub downbeat: Option<f64>,
+    /// Frequency of A4 (MIDI 69) used to name pitches, in Hz.
+    #[arg(
+        long,
+        default_value_t = 440.0,
+        value_name = "HZ",
+        help_heading = "AUDIO"
+    )]
+    pub a4: f64,
+    /// Lowest melody pitch searched, in Hz (default B1).
+    #[arg(
+        long,
+        default_value_t = 61.735,
+        value_name = "HZ",
+        help_heading = "AUDIO"
+    )]
+    pub fmin: f64,
+    /// Highest melody pitch searched, in Hz (default C#7).
+    #[arg(
+        long,
+        default_value_t = 2217.461,
+        value_name = "HZ",
+        help_heading = "AUDIO"
+    )]
+    pub fmax: f64,
+    /// Longest audio analysed, in seconds.
+    #[arg(
+        long,
+        default_value_t = 1800.0,
+        value_name = "SECONDS",
+        help_heading = "LIMITS"
+    )]
+    pub max_audio_seconds: f64,
+}
+
+impl AudioArgs {
+    /// Validates the audio options into library options.
+    pub fn options(&self) -> Result<collatio::ingest::audio::AudioReadOptions, UsageError> {
+        let finite_positive = |v: f64| v.is_finite() && v > 0.0;
+        if !finite_positive(self.a4) || !finite_positive(self.fmin) || !finite_positive(self.fmax) {
+            return Err(UsageError(
+                "--a4, --fmin and --fmax must be positive frequencies in Hz".into(),
+            ));
+        }
+        if self.fmax <= self.fmin * 1.06 {
+            return Err(UsageError(format!(
+                "--fmax ({} Hz) must be at least a semitone above --fmin ({} Hz)",
+                self.fmax, self.fmin
+            )));
+        }
+        for (name, value) in [
+            ("--from", self.from),
+            ("--to", self.to),
+            ("--downbeat", self.downbeat),
+        ] {
+            if value.is_some_and(|v| !v.is_finite() || v < 0.0) {
+                return Err(UsageError(format!(
+                    "{name} must be a non-negative number of seconds"
+                )));
+            }
+        }
+        if let (Some(a), Some(b)) = (self.from, self.to) {
+            if b <= a {
+                return Err(UsageError(format!("--to ({b}) must be after --from ({a})")));
+            }
+        }
+        if !finite_positive(self.max_audio_seconds) {
+            return Err(UsageError(
+                "--max-audio-seconds must be a positive number".into(),
+            ));
+        }
+        let mut options = collatio::ingest::audio::AudioReadOptions::default();
+        options.decode.from = self.from;
+        options.decode.to = self.to;
+        options.decode.max_seconds = self.max_audio_seconds;
+        options.meter = self.meter.map(|m| (m.0, m.1));
+        options.downbeat = self.downbeat;
+        options.analysis.reference_hz = self.a4;
+        options.analysis.pitch.fmin = self.fmin;
+        options.analysis.pitch.fmax = self.fmax;
+        Ok(options)
+    }
 }
 
 /// Which line of the file is the melody.
@@ -378,13 +645,15 @@ impl LimitArgs {
 
 impl CompareArgs {
     /// Reading options for A and B.
-    pub fn read_options(&self) -> (ReadOptions, ReadOptions) {
+    pub fn read_options(&self) -> Result<(ReadOptions, ReadOptions), UsageError> {
+        let audio = self.audio.options()?;
         let make = |spec: &Option<SelectionSpec>| ReadOptions {
             limits: self.limits.limits(),
             choice: spec.clone().unwrap_or_default().0,
             unfold_repeats: self.unfold_repeats,
+            audio: audio.clone(),
         };
-        (make(&self.select_a), make(&self.select_b))
+        Ok((make(&self.select_a), make(&self.select_b)))
     }
 }
 
@@ -409,6 +678,7 @@ impl InspectArgs {
                 include_percussion: s.include_percussion,
             },
             unfold_repeats: self.unfold_repeats,
+            audio: self.audio.options()?,
         })
     }
 }

@@ -5,6 +5,7 @@
 //! 2 usage error; 3 input error (nothing could be read).
 
 mod args;
+mod corpus;
 
 use anyhow::Result;
 use args::{Cli, Command, CompareArgs, InspectArgs, OutputFormat};
@@ -52,23 +53,67 @@ fn exit_code_of(error: &anyhow::Error) -> i32 {
         }) => EXIT_USAGE,
         Some(_) => EXIT_INPUT,
         None if error.downcast_ref::<args::UsageError>().is_some() => EXIT_USAGE,
-        None => EXIT_INPUT,
+        None => match error.downcast_ref::<collatio::report::exhibit::ExhibitError>() {
+            Some(e) if e.is_usage() => EXIT_USAGE,
+            _ => EXIT_INPUT,
+        },
     }
 }
 
 fn run(cli: Cli) -> Result<i32> {
     match cli.command {
-        Command::Inspect(args) => inspect(args),
+        Command::Inspect(args) => inspect(*args),
         Command::Compare(args) => compare(*args),
+        Command::Corpus(corpus::CorpusCommand::Build(args)) => corpus::build(&args),
+        Command::Search(args) => corpus::search(&args),
     }
 }
 
 fn compare(args: CompareArgs) -> Result<i32> {
-    let (options_a, options_b) = args.read_options();
+    let (options_a, options_b) = args.read_options()?;
     let params = args.alignment.params();
+    // Output options are checked before any file is read.
+    let exhibit = if args.exhibit.any() {
+        let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
+        Some(args.exhibit.options(epoch.as_deref())?)
+    } else {
+        None
+    };
     let a = read_file(&args.a, &options_a)?;
     let b = read_file(&args.b, &options_b)?;
-    let result = collatio::compare::compare(&a, &b, &params);
+    let index = match &args.statistics.corpus {
+        Some(path) => Some(corpus::load_index(path)?),
+        None => None,
+    };
+    let mut result = collatio::compare::compare(&a, &b, &params);
+    let (seq_a, seq_b) = (
+        collatio::features::Sequence::from_piece(&a),
+        collatio::features::Sequence::from_piece(&b),
+    );
+    collatio::stats::null::assess(
+        &mut result,
+        &seq_a,
+        &seq_b,
+        &params,
+        &args.statistics.null_params(),
+    );
+    if let (Some(index), Some(path)) = (&index, &args.statistics.corpus) {
+        collatio::stats::corpus::annotate(
+            &mut result,
+            &seq_a,
+            &seq_b,
+            index,
+            &path.display().to_string(),
+            &params,
+        );
+    }
+    if let Some((options, outputs)) = &exhibit {
+        let written =
+            collatio::report::exhibit::write_exhibit(&a, &b, &params, &result, options, outputs)?;
+        for path in &written.files {
+            eprintln!("collatio: wrote {}", path.display());
+        }
+    }
     let text = match args.format {
         OutputFormat::Text => collatio::report::compare::render_text(&a, &b, &result),
         OutputFormat::Json => {
@@ -89,6 +134,42 @@ fn compare(args: CompareArgs) -> Result<i32> {
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
 }
 
+/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically (a temporary
+/// file in the same folder, then a rename), refusing to overwrite the input.
+fn export_midi(
+    piece: &collatio::timeline::Piece,
+    input: &std::path::Path,
+    target: &std::path::Path,
+) -> Result<()> {
+    let same = match (std::fs::canonicalize(input), std::fs::canonicalize(target)) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    };
+    if same {
+        return Err(args::UsageError(format!(
+            "--export-midi {} would overwrite the input",
+            target.display()
+        ))
+        .into());
+    }
+    let bytes = collatio::audio::export::melody_to_smf(piece)?;
+    let folder = match target.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => std::path::PathBuf::from("."),
+    };
+    let name = target
+        .file_name()
+        .map_or_else(|| "melody.mid".into(), |n| n.to_string_lossy().into_owned());
+    let temporary = folder.join(format!(".{name}.{}.tmp", std::process::id()));
+    std::fs::write(&temporary, &bytes)
+        .and_then(|()| std::fs::rename(&temporary, target))
+        .map_err(|e| {
+            let _ = std::fs::remove_file(&temporary);
+            anyhow::anyhow!("cannot write {}: {e}", target.display())
+        })?;
+    Ok(())
+}
+
 /// Writes to standard output; a closed pipe (`| head`) is not an error.
 fn write_stdout(text: &str) -> Result<()> {
     let mut stdout = std::io::stdout().lock();
@@ -101,6 +182,9 @@ fn write_stdout(text: &str) -> Result<()> {
 fn inspect(args: InspectArgs) -> Result<i32> {
     let options: ReadOptions = args.read_options()?;
     let piece = read_file(&args.file, &options)?;
+    if let Some(target) = &args.export_midi {
+        export_midi(&piece, &args.file, target)?;
+    }
     let text = match args.format {
         OutputFormat::Text => collatio::report::inspect::render_text(&piece),
         OutputFormat::Json => {

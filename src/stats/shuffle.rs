@@ -136,7 +136,11 @@ mod tests {
     }
 
     fn pairs(s: &Sequence) -> Vec<(i32, i32)> {
-        let mut p: Vec<(i32, i32)> = s.notes.windows(2).map(|w| (w[0].pitch, w[1].pitch)).collect();
+        let mut p: Vec<(i32, i32)> = s
+            .notes
+            .windows(2)
+            .map(|w| (w[0].pitch, w[1].pitch))
+            .collect();
         p.sort_unstable();
         p
     }

@@ -1,0 +1,103 @@
+//! `collatio corpus build`, `collatio search` and `compare --corpus` as a user runs them.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
+mod common;
+
+use serde_json::Value;
+
+fn run(args: &[&str]) -> (i32, String, String) {
+    common::run_cli(args)
+}
+
+fn build_index(dir: &std::path::Path) -> String {
+    let index = dir.join("tunes.idx").display().to_string();
+    let corpus = common::fixture("tune_family").display().to_string();
+    let (code, _, stderr) = run(&["corpus", "build", &corpus, "-o", &index]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stderr.contains("indexed 8 melodies"), "{stderr}");
+    index
+}
+
+#[test]
+fn search_ranks_the_tune_family_first() {
+    let tmp = tempfile::tempdir().unwrap();
+    let index = build_index(tmp.path());
+    let query = common::fixture("tune_family/twinkle_d_2-2_doubled.musicxml")
+        .display()
+        .to_string();
+    let (code, stdout, stderr) = run(&["search", &query, "--corpus", &index, "--format", "json"]);
+    assert_eq!(code, 0, "{stderr}");
+    let v: Value = serde_json::from_str(&stdout).unwrap();
+    let hits = v["hits"].as_array().unwrap();
+    let paths: Vec<&str> = hits.iter().map(|h| h["path"].as_str().unwrap()).collect();
+    // The query itself (in the corpus) and the other Twinkle first, then the rest of the family.
+    assert!(paths[0].starts_with("twinkle"), "{paths:?}");
+    assert!(paths[1].starts_with("twinkle"), "{paths:?}");
+    for p in &paths[2..4] {
+        assert!(
+            p.starts_with("alphabet") || p.starts_with("baa_baa"),
+            "{paths:?}"
+        );
+    }
+    for h in hits {
+        let s = h["similarity"].as_f64().unwrap();
+        assert!((0.0..=1.0).contains(&s));
+        assert!(h["passages"].is_array());
+    }
+}
+
+#[test]
+fn compare_with_a_corpus_reports_commonness() {
+    let tmp = tempfile::tempdir().unwrap();
+    let index = build_index(tmp.path());
+    let a = common::fixture("tune_family/twinkle_c_4-4.musicxml")
+        .display()
+        .to_string();
+    let b = common::fixture("tune_family/alphabet_song_g_4-4.musicxml")
+        .display()
+        .to_string();
+    let (code, stdout, stderr) = run(&["compare", &a, &b, "--corpus", &index, "--format", "json"]);
+    assert_eq!(code, 0, "{stderr}");
+    let v: Value = serde_json::from_str(&stdout).unwrap();
+    assert_eq!(v["corpus"]["melodies"], 8);
+    let weighted = v["corpus"]["weighted_similarity"].as_f64().unwrap();
+    assert!((0.0..=1.0).contains(&weighted));
+    let common = &v["passages"][0]["commonness"];
+    assert_eq!(common["corpus_melodies"], 8);
+    // The whole tune is in the corpus twice exactly (the two Twinkle files) — it is the figure.
+    assert!(common["exact"].as_u64().unwrap() >= 2, "{common}");
+}
+
+#[test]
+fn damaged_index_and_unreadable_corpus_files_are_reported() {
+    let tmp = tempfile::tempdir().unwrap();
+    let bad = tmp.path().join("bad.idx");
+    std::fs::write(&bad, b"COLLATIO-CORPUS\0 truncated").unwrap();
+    let query = common::fixture("tune_family/twinkle_c_4-4.musicxml")
+        .display()
+        .to_string();
+    let bad = bad.display().to_string();
+    let (code, _, stderr) = run(&["search", &query, "--corpus", &bad]);
+    assert_eq!(code, 3, "{stderr}");
+    assert!(
+        stderr.contains(&bad) && stderr.contains("corrupt index"),
+        "{stderr}"
+    );
+
+    // A folder with one good file and one broken one: indexed with a list of what was skipped.
+    let folder = tmp.path().join("mixed");
+    std::fs::create_dir(&folder).unwrap();
+    std::fs::copy(
+        common::fixture("tune_family/twinkle_c_4-4.musicxml"),
+        folder.join("good.musicxml"),
+    )
+    .unwrap();
+    std::fs::write(folder.join("broken.mid"), b"MThd\0\0").unwrap();
+    let out = tmp.path().join("mixed.idx").display().to_string();
+    let (code, _, stderr) = run(&["corpus", "build", &folder.display().to_string(), "-o", &out]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(
+        stderr.contains("1 files skipped") && stderr.contains("broken.mid"),
+        "{stderr}"
+    );
+}
