@@ -72,8 +72,12 @@ fn melodies() -> Vec<(String, String, Sequence)> {
 #[test]
 fn p_values_of_unrelated_real_melodies_are_calibrated() {
     let all = melodies();
-    let first: Vec<usize> = (0..all.len()).filter(|&i| all[i].0 == "ryansMammoth").collect();
-    let second: Vec<usize> = (0..all.len()).filter(|&i| all[i].0 == "oneills1850").collect();
+    let first: Vec<usize> = (0..all.len())
+        .filter(|&i| all[i].0 == "ryansMammoth")
+        .collect();
+    let second: Vec<usize> = (0..all.len())
+        .filter(|&i| all[i].0 == "oneills1850")
+        .collect();
     assert!(first.len() * second.len() >= PAIRS, "not enough melodies");
     let mut pairs: Vec<(usize, usize)> = first
         .iter()
