@@ -48,8 +48,9 @@ pub struct SearchArgs {
     /// Best matches listed.
     #[arg(long, default_value_t = 10, help_heading = "SEARCH")]
     pub top: usize,
-    /// Candidates retrieved by shared figures and then aligned in full.
-    #[arg(long, default_value_t = 200, help_heading = "SEARCH")]
+    /// Candidates retrieved by shared figures and then aligned in full (raise it to look
+    /// deeper in corpora full of near-duplicates; each costs one full alignment).
+    #[arg(long, default_value_t = 20, help_heading = "SEARCH")]
     pub candidates: usize,
     #[command(flatten)]
     pub limits: LimitArgs,
