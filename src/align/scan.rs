@@ -75,8 +75,9 @@ struct Lane {
     f: Vec<i32>,
     f_origin: Vec<u64>,
     best: Hit,
-    /// Pitch term by pitch class of B for the current row.
-    pitch_of_b: [i32; 12],
+    /// Pitch term by pitch class of B for the current row (16 entries so that a masked index
+    /// needs no bounds check; the last four are unused).
+    pitch_of_b: [i32; 16],
 }
 
 impl Lane {
@@ -92,7 +93,7 @@ impl Lane {
                 start: (0, 0),
                 end: (0, 0),
             },
-            pitch_of_b: [0; 12],
+            pitch_of_b: [0; 16],
         }
     }
 }
@@ -128,7 +129,7 @@ pub(crate) fn scan_many<const TRACK: bool>(
             *c = scorer.context(ai, bj);
         }
         for lane in &mut lanes {
-            for (pc, value) in lane.pitch_of_b.iter_mut().enumerate() {
+            for (pc, value) in lane.pitch_of_b.iter_mut().take(12).enumerate() {
                 *value = scorer.pitch_by_class(ai, pc as u8, lane.t);
             }
             scan_row::<TRACK>(
@@ -223,7 +224,7 @@ fn scan_row<const TRACK: bool>(
         }
         // Match or mismatch on the diagonal.
         let diag = h[up + j - 1];
-        let mut value = diag + context[bj] + pitch_of_b[pc_b[bj] as usize];
+        let mut value = diag + context[bj] + pitch_of_b[usize::from(pc_b[bj] & 15)];
         let mut from = if !TRACK {
             0
         } else if diag > 0 {
