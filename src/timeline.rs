@@ -122,6 +122,30 @@ pub struct Note {
 }
 
 impl Note {
+    /// A note of a reader: position in ticks and concert pitch, everything else at its
+    /// default (staff 1, no voice, spelling, lyric or velocity, confidence 1). Beats, seconds
+    /// and the bar are filled in by the finishing step of ingest.
+    pub fn at_ticks(onset_ticks: i64, duration_ticks: i64, pitch: f64) -> Note {
+        Note {
+            onset_ticks,
+            duration_ticks,
+            onset: Beats(0.0),
+            duration: Beats(0.0),
+            onset_seconds: Seconds(0.0),
+            duration_seconds: Seconds(0.0),
+            pitch: MidiPitch(pitch),
+            spelling: None,
+            bar: 0,
+            offset_in_bar: Beats(0.0),
+            part: 0,
+            voice: None,
+            staff: 1,
+            lyric: None,
+            velocity: None,
+            confidence: 1.0,
+        }
+    }
+
     /// End of the note in ticks.
     pub fn end_ticks(&self) -> i64 {
         self.onset_ticks + self.duration_ticks

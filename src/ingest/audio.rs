@@ -22,7 +22,6 @@ use super::{Limits, Problem, RawBar, RawPiece};
 use crate::audio::decode::{self, DecodeOptions, Decoded};
 use crate::audio::{self, Analysis, AnalysisOptions, AudioError};
 use crate::timeline::{Format, Note, Part, TempoChange, TimeSignature};
-use crate::units::{Beats, MidiPitch, Seconds};
 use serde::Serialize;
 use std::path::Path;
 
@@ -392,22 +391,8 @@ fn build(
             let onset = grid.tick_of(n.onset);
             let end = grid.tick_of(n.offset).max(onset + 1);
             Note {
-                onset_ticks: onset,
-                duration_ticks: end - onset,
-                onset: Beats(0.0),
-                duration: Beats(0.0),
-                onset_seconds: Seconds(0.0),
-                duration_seconds: Seconds(0.0),
-                pitch: MidiPitch(n.pitch),
-                spelling: None,
-                bar: 0,
-                offset_in_bar: Beats(0.0),
-                part: 0,
-                voice: None,
-                staff: 1,
-                lyric: None,
-                velocity: None,
                 confidence: n.confidence.min(0.99),
+                ..Note::at_ticks(onset, end - onset, n.pitch)
             }
         })
         .collect();

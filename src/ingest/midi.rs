@@ -14,7 +14,6 @@
 use super::{Limits, Problem, RawBar, RawPiece};
 use crate::theory::KeyMode;
 use crate::timeline::{KeySignature, Note, Part, TempoChange, TimeSignature};
-use crate::units::{Beats, MidiPitch, Seconds};
 use midly::{MetaMessage, MidiMessage, Smf, Timing, TrackEventKind};
 use std::collections::{BTreeMap, VecDeque};
 
@@ -239,22 +238,8 @@ fn check_notes(count: u64, limits: &Limits) -> Result<(), Problem> {
 
 fn midi_note(onset: i64, duration: i64, key: u8, velocity: u8) -> Note {
     Note {
-        onset_ticks: onset,
-        duration_ticks: duration.max(0),
-        onset: Beats(0.0),
-        duration: Beats(0.0),
-        onset_seconds: Seconds(0.0),
-        duration_seconds: Seconds(0.0),
-        pitch: MidiPitch(f64::from(key)),
-        spelling: None,
-        bar: 0,
-        offset_in_bar: Beats(0.0),
-        part: 0,
-        voice: None,
-        staff: 1,
-        lyric: None,
         velocity: Some(velocity),
-        confidence: 1.0,
+        ..Note::at_ticks(onset, duration.max(0), f64::from(key))
     }
 }
 

@@ -3,7 +3,6 @@
 use super::measure::{MeasureContent, RepeatMarks};
 use crate::ingest::{Limits, Problem, RawBar, RawPiece};
 use crate::timeline::{KeySignature, Note, TempoChange, TimeSignature};
-use crate::units::{Beats, MidiPitch, Seconds};
 
 /// What a measure ordinal looks like across all parts: label, implicit flag, length in ticks,
 /// time signature in force, repeat marks.
@@ -141,22 +140,12 @@ pub(super) fn lay_out(
                 }
                 notes.push((
                     Note {
-                        onset_ticks: start + n.offset,
-                        duration_ticks: n.duration,
-                        onset: Beats(0.0),
-                        duration: Beats(0.0),
-                        onset_seconds: Seconds(0.0),
-                        duration_seconds: Seconds(0.0),
-                        pitch: MidiPitch(concert.midi()),
                         spelling: Some(concert),
-                        bar: 0,
-                        offset_in_bar: Beats(0.0),
                         part: part_index,
                         voice: n.voice.clone(),
                         staff: n.staff,
                         lyric: n.lyric.clone(),
-                        velocity: None,
-                        confidence: 1.0,
+                        ..Note::at_ticks(start + n.offset, n.duration, concert.midi())
                     },
                     n.tie_start,
                     n.tie_stop,
