@@ -132,15 +132,11 @@ pub(crate) fn scan_many<const TRACK: bool>(
             for (pc, value) in lane.pitch_of_b.iter_mut().take(12).enumerate() {
                 *value = scorer.pitch_by_class(ai, pc as u8, lane.t);
             }
-            scan_row::<TRACK>(
-                scorer,
-                params,
-                lane,
-                i,
-                &context,
-                pc_b,
-                masked.then_some(&mask[..]),
-            );
+            if masked {
+                scan_row::<TRACK, true>(scorer, params, lane, i, &context, pc_b, &mask);
+            } else {
+                scan_row::<TRACK, false>(scorer, params, lane, i, &context, pc_b, &[]);
+            }
         }
     }
     lanes
@@ -158,14 +154,14 @@ pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Block
 
 /// One row of the recurrence for one transposition.
 #[inline(always)]
-fn scan_row<const TRACK: bool>(
+fn scan_row<const TRACK: bool, const MASKED: bool>(
     scorer: &Scorer,
     params: &AlignParams,
     lane: &mut Lane,
     i: usize,
     context: &[i32],
     pc_b: &[u8],
-    mask: Option<&[bool]>,
+    mask: &[bool],
 ) {
     let m = context.len();
     let width = m + 1;
@@ -190,13 +186,16 @@ fn scan_row<const TRACK: bool>(
     let mut e = NEG;
     let mut e_origin = 0u64;
     let mut left = 0i32;
+    // H of the row above at column j − 1 (the diagonal), carried in a register.
+    let mut diag = h[up];
     for j in 1..=m {
         let bj = j - 1;
-        if mask.is_some_and(|mask| mask[bj]) {
+        if MASKED && mask[bj] {
             h[cur + j] = 0;
             f[j] = NEG;
             e = NEG;
             left = 0;
+            diag = h[up + j];
             continue;
         }
         // Gap in A: b_j left unmatched, from the left.
@@ -223,7 +222,6 @@ fn scan_row<const TRACK: bool>(
             f[j] = from_f;
         }
         // Match or mismatch on the diagonal.
-        let diag = h[up + j - 1];
         let mut value = diag + context[bj] + pitch_of_b[usize::from(pc_b[bj] & 15)];
         let mut from = if !TRACK {
             0
@@ -232,6 +230,7 @@ fn scan_row<const TRACK: bool>(
         } else {
             pack(i, j)
         };
+        diag = above;
         if e > value {
             value = e;
             from = e_origin;
