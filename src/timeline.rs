@@ -365,6 +365,25 @@ pub struct Part {
     pub notes: Vec<Note>,
 }
 
+impl Part {
+    /// A part holding one melodic line and nothing else (a transcription, a corpus melody):
+    /// no track, channel, transposition or voices, one staff.
+    pub fn single_line(id: String, name: String, notes: Vec<Note>) -> Part {
+        Part {
+            id,
+            name,
+            instrument: String::new(),
+            track: None,
+            channel: None,
+            percussion: false,
+            transposition: 0,
+            staves: 1,
+            voices: Vec::new(),
+            notes,
+        }
+    }
+}
+
 /// Why and what was chosen as the melody.
 #[derive(Debug, Clone, Serialize)]
 pub struct Selection {

@@ -4,13 +4,12 @@
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
+
+mod common;
 
 fn collatio(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_collatio"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
+    common::run_collatio(args)
 }
 
 fn fixture(name: &str) -> String {

@@ -4,13 +4,12 @@
 
 use std::io::Write;
 use std::path::Path;
-use std::process::{Command, Output};
+use std::process::Output;
+
+mod common;
 
 fn collatio(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_collatio"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
+    common::run_collatio(args)
 }
 
 fn write(dir: &Path, name: &str, bytes: &[u8]) -> String {

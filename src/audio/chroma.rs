@@ -216,12 +216,7 @@ pub fn chroma_stft(
 mod tests {
     use super::*;
 
-    fn sine(hz: f64, seconds: f64) -> Vec<f32> {
-        let sr = 22_050.0;
-        (0..(seconds * sr) as usize)
-            .map(|n| (0.5 * (2.0 * std::f64::consts::PI * hz * n as f64 / sr).sin()) as f32)
-            .collect()
-    }
+    use crate::audio::test_signals::sine;
 
     #[test]
     fn a_sine_lights_its_pitch_class_and_tuning() {

@@ -49,6 +49,18 @@ pub mod pitch;
 pub mod resample;
 pub mod stft;
 
+/// Signals shared by the unit tests of the analysis modules.
+#[cfg(test)]
+pub(crate) mod test_signals {
+    /// A sine at `hz`, amplitude 0.5, sampled at 22,050 Hz for `seconds`.
+    pub fn sine(hz: f64, seconds: f64) -> Vec<f32> {
+        let sr = 22_050.0;
+        (0..(seconds * sr) as usize)
+            .map(|n| (0.5 * (2.0 * std::f64::consts::PI * hz * n as f64 / sr).sin()) as f32)
+            .collect()
+    }
+}
+
 use serde::Serialize;
 
 /// Sample rate of the analysis in Hz (librosa's default rate; enough for f0 up to C8).

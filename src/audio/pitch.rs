@@ -739,12 +739,7 @@ fn viterbi(
 mod tests {
     use super::*;
 
-    fn sine(hz: f64, seconds: f64) -> Vec<f32> {
-        let sr = 22_050.0;
-        (0..(seconds * sr) as usize)
-            .map(|n| (0.5 * (2.0 * std::f64::consts::PI * hz * n as f64 / sr).sin()) as f32)
-            .collect()
-    }
+    use crate::audio::test_signals::sine;
 
     /// The difference function straight from equation 6, the obviously-correct reference.
     fn naive_cmndf(x: &[f32], w: usize, max_lag: usize) -> Vec<f64> {

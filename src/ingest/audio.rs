@@ -424,18 +424,7 @@ fn build(
         },
         notes.len(),
     );
-    let part = Part {
-        id: "audio".into(),
-        name: "transcribed melody".into(),
-        instrument: String::new(),
-        track: None,
-        channel: None,
-        percussion: false,
-        transposition: 0,
-        staves: 1,
-        voices: Vec::new(),
-        notes,
-    };
+    let part = Part::single_line("audio".into(), "transcribed melody".into(), notes);
     Ok(RawPiece {
         detail,
         title: None,

@@ -243,18 +243,11 @@ impl MelodyEntry {
             title: self.title.clone(),
             composer: None,
             resolution: RESOLUTION,
-            parts: vec![Part {
-                id: self.part.clone(),
-                name: String::new(),
-                instrument: String::new(),
-                track: None,
-                channel: None,
-                percussion: false,
-                transposition: 0,
-                staves: 1,
-                voices: Vec::new(),
-                notes: melody.clone(),
-            }],
+            parts: vec![Part::single_line(
+                self.part.clone(),
+                String::new(),
+                melody.clone(),
+            )],
             bars,
             tempo: TempoMap::new(
                 RESOLUTION,

@@ -142,12 +142,17 @@ pub fn events_of(piece: &Piece) -> Vec<Event> {
     out
 }
 
-/// Runs the collatio executable: (exit code, stdout, stderr).
-pub fn run_cli(args: &[&str]) -> (i32, String, String) {
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_collatio"))
+/// Runs the collatio executable and returns its output.
+pub fn run_collatio(args: &[&str]) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_collatio"))
         .args(args)
         .output()
-        .expect("the binary runs");
+        .expect("the binary runs")
+}
+
+/// Runs the collatio executable: (exit code, stdout, stderr).
+pub fn run_cli(args: &[&str]) -> (i32, String, String) {
+    let out = run_collatio(args);
     (
         out.status.code().unwrap_or(-1),
         String::from_utf8_lossy(&out.stdout).into_owned(),
