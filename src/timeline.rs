@@ -434,9 +434,49 @@ pub struct Piece {
     pub selection: Selection,
     /// Warnings met while reading, each naming where.
     pub warnings: Vec<String>,
+    /// The harmony layer measured from a recording (`None` for scores and MIDI files, whose
+    /// chroma [`crate::features::chroma::chroma_of`] derives from all their parts).
+    pub chroma: Option<ChromaLayer>,
+}
+
+/// A chromagram: a 12-bin pitch-class profile per frame on a fixed time step (the harmony
+/// layer of a piece). Pitch class 0 is C; frame `k` is centred on `k · hop_seconds` seconds
+/// of the piece's timeline.
+#[derive(Debug, Clone, Serialize)]
+pub struct ChromaLayer {
+    /// Frame advance in seconds.
+    pub hop_seconds: f64,
+    /// Tuning of the recording in fractions of a semitone relative to A4 = 440 Hz (0 for
+    /// notated music).
+    pub tuning: f64,
+    /// Where the profile comes from: `recording` (short-time spectrum) or `notes` (every
+    /// sounding note of every pitched part).
+    pub source: &'static str,
+    /// One profile per frame, each frame's maximum 1 (or all 0 in silence).
+    #[serde(skip)]
+    pub frames: Vec<[f32; 12]>,
+    /// Onset activity per frame (≥ 0, any scale): the spectral-flux onset strength of a
+    /// recording, or the summed power of the notes starting in the frame of a score.
+    #[serde(skip)]
+    pub onsets: Vec<f32>,
+}
+
+impl ChromaLayer {
+    /// Duration covered, in seconds.
+    pub fn seconds(&self) -> f64 {
+        self.frames.len() as f64 * self.hop_seconds
+    }
 }
 
 impl Piece {
+    /// The bar a time in seconds falls in (the last bar starting at or before it; 0 before
+    /// the first).
+    pub fn bar_at_seconds(&self, seconds: f64) -> usize {
+        self.bars
+            .partition_point(|b| b.start_seconds.0 <= seconds)
+            .saturating_sub(1)
+    }
+
     /// The bar a tick position falls in (the last bar starting at or before it).
     pub fn bar_at(&self, ticks: i64) -> usize {
         bar_index_at(&self.bars, ticks)

@@ -27,8 +27,11 @@
 //! assert!(align(&empty, &empty, &AlignParams::default()).is_empty());
 //! ```
 
+pub mod chroma;
+pub mod harmony;
 mod scan;
 pub(crate) mod score;
+pub mod sync;
 mod trace;
 
 use crate::features::Sequence;

@@ -12,6 +12,8 @@
 //! assert_eq!(metric_level(2.0, 4.0, (4, 4)), MetricLevel::Strong);
 //! ```
 
+pub mod chroma;
+
 use crate::timeline::Piece;
 use serde::Serialize;
 

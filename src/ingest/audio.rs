@@ -21,7 +21,7 @@
 use super::{Limits, Problem, RawBar, RawPiece};
 use crate::audio::decode::{self, DecodeOptions, Decoded};
 use crate::audio::{self, Analysis, AnalysisOptions, AudioError};
-use crate::timeline::{Format, Note, Part, TempoChange, TimeSignature};
+use crate::timeline::{ChromaLayer, Format, Note, Part, TempoChange, TimeSignature};
 use serde::Serialize;
 use std::path::Path;
 
@@ -442,7 +442,56 @@ fn build(
         chord_symbols: Vec::new(),
         ornaments: Vec::new(),
         warnings,
+        chroma: Some(chroma_layer(decoded, analysis)),
     })
+}
+
+/// Frames quieter than this many decibels below the loud frames (the 95th percentile of the
+/// frame levels) count as silence in the harmony layer.
+const SILENCE_DB: f32 = 40.0;
+
+/// The recording's harmony layer: the analysis chroma with silent frames set to zero. The
+/// chroma of each frame is scaled to its maximum, which would turn the faint noise of a lead-in
+/// or a fade into a full-scale profile; zero frames say "nothing sounds" instead.
+fn chroma_layer(decoded: &Decoded, analysis: &Analysis) -> ChromaLayer {
+    let hop = analysis.hop_length.max(1);
+    let samples = &decoded.samples;
+    let level = |k: usize| -> f32 {
+        // Mean square over a window of 4 hops centred on the frame.
+        let lo = (k * hop).saturating_sub(2 * hop).min(samples.len());
+        let hi = (k * hop + 2 * hop).min(samples.len());
+        let window = &samples[lo..hi];
+        if window.is_empty() {
+            0.0
+        } else {
+            window.iter().map(|x| x * x).sum::<f32>() / window.len() as f32
+        }
+    };
+    let levels: Vec<f32> = (0..analysis.chroma.frames.len()).map(level).collect();
+    let mut sorted = levels.clone();
+    sorted.sort_by(f32::total_cmp);
+    let loud = sorted
+        .get((sorted.len() as f64 * 0.95) as usize)
+        .or(sorted.last())
+        .copied()
+        .unwrap_or(0.0);
+    let floor = loud * 10f32.powf(-SILENCE_DB / 10.0);
+    let frames = analysis
+        .chroma
+        .frames
+        .iter()
+        .zip(&levels)
+        .map(|(frame, level)| if *level > floor { *frame } else { [0.0; 12] })
+        .collect();
+    let mut onsets = analysis.onset_strength.clone();
+    onsets.resize(analysis.chroma.frames.len(), 0.0);
+    ChromaLayer {
+        hop_seconds: analysis.chroma.hop_seconds,
+        tuning: analysis.chroma.tuning,
+        source: "recording",
+        frames,
+        onsets,
+    }
 }
 
 /// The downbeat phase (0 … beats_per_bar − 1) whose beats carry the most onset strength and

@@ -110,5 +110,6 @@ pub(crate) fn finish(
             reason: String::new(),
         },
         warnings: raw.warnings,
+        chroma: raw.chroma,
     })
 }

@@ -239,6 +239,8 @@ pub(crate) struct RawPiece {
     /// (ticks, part index, pitch, kind)
     pub ornaments: Vec<(i64, usize, f64, String)>,
     pub warnings: Vec<String>,
+    /// The measured harmony layer (audio only).
+    pub chroma: Option<crate::timeline::ChromaLayer>,
 }
 
 /// A bar as a reader finds it.

@@ -283,6 +283,7 @@ impl MelodyEntry {
                 reason: format!("melody {} of the corpus", self.part),
             },
             warnings: Vec::new(),
+            chroma: None,
         }
     }
 }

@@ -1,0 +1,604 @@
+//! Harmonic comparison of two chroma sequences: cross recurrence and the Qmax local alignment.
+//!
+//! Method (Serrà, Serra & Andrzejak 2009, "Cross recurrence quantification for cover song
+//! identification", New Journal of Physics 11):
+//! 1. Both chromagrams become [`ChromaFeatures`] (`step` analysis frames per feature frame,
+//!    averaged over `window`); B is moved into A's key by the optimal transposition index
+//!    (Serrà et al. 2008); the two best indices are tried and the stronger result kept.
+//! 2. Delay embedding: the state at frame `i` is the concatenation of frames `i, i + τ, …,
+//!    i + (m − 1)τ`, so that a state is a short progression rather than one chord.
+//! 3. Binary cross recurrence plot: `R(i, j) = 1` when B's state `j` is among the `κ` nearest
+//!    (fraction of all states) of A's state `i` and A's state `i` among the `κ` nearest of
+//!    B's state `j` (mutual nearest neighbours, Euclidean distance).
+//! 4. Qmax: `Q(i, j) = max(Q(i−1, j−1), Q(i−2, j−1), Q(i−1, j−2)) + 1` when `R(i, j) = 1`, else
+//!    `max(0, Q(p) − γ(R(p)))` over the same three predecessors `p`, with `γ = γo` after a
+//!    recurrence (a gap opens) and `γe` otherwise. The three steps let the tempo ratio of the
+//!    two performances lie anywhere between 1/2 and 2, so a global tempo change does not
+//!    matter. The largest `Q` ends the best shared progression; the traceback gives its span
+//!    in both pieces.
+//! 5. Several passages by declumping, as for melodies: once a passage is reported, the
+//!    rectangle of frames it spans in both pieces is closed and the next one is sought.
+//! 6. Significance: the columns of the recurrence plot are shuffled in blocks of `block`
+//!    frames (B's states keep their short-range order and their neighbour sets, but lose their
+//!    long-range order), `shuffles` times with a seeded generator; a passage's empirical
+//!    p-value is `(1 + #{shuffled Qmax ≥ Q}) / (shuffles + 1)`.
+//!
+//! κ = 0.1, γo = 5 and γe = 0.5 are the values of Serrà et al. (2009); the frame rate and
+//! embedding (m = 8 frames of about 0.19 s, τ = 1) are chosen here so that a state spans about
+//! one and a half seconds, a bar or two of most music.
+
+use super::chroma::{transposition_ranking, ChromaFeatures};
+use crate::timeline::ChromaLayer;
+use rand::seq::SliceRandom;
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
+use serde::Serialize;
+
+/// Parameters of the harmonic comparison.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HarmonyParams {
+    /// Analysis frames per feature frame. Default 8 (≈ 0.19 s at the 23.2 ms analysis hop).
+    pub step: usize,
+    /// Analysis frames averaged into one feature frame. Default 16 (≈ 0.37 s).
+    pub window: usize,
+    /// Embedding dimension m (feature frames per state). Default 8.
+    pub embedding: usize,
+    /// Embedding delay τ in feature frames. Default 1.
+    pub delay: usize,
+    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.1.
+    pub neighbours: f64,
+    /// Lowest mean cosine similarity of the frames of two states for them to count as
+    /// recurrent, whatever their rank. Default 0.7.
+    pub min_similarity: f32,
+    /// Penalty for opening a gap, γo. Default 5.
+    pub gap_onset: f32,
+    /// Penalty for extending a gap, γe. Default 0.5.
+    pub gap_extension: f32,
+    /// Shortest passage reported, in seconds of A. Default 6.
+    pub min_seconds: f64,
+    /// Largest empirical p-value reported. Default 0.05.
+    pub max_p: f64,
+    /// Most passages reported. Default 10.
+    pub max_passages: usize,
+    /// Shuffled recurrence plots for the empirical p-value. Default 99.
+    pub shuffles: usize,
+    /// Columns shuffled together. Default 16 feature frames (≈ 3 s).
+    pub block: usize,
+    /// Seed of the shuffles. Default 20261202.
+    pub seed: u64,
+    /// Largest recurrence plot, in cells; longer inputs use a coarser `step`. Default 16 M.
+    pub max_cells: usize,
+}
+
+impl Default for HarmonyParams {
+    fn default() -> Self {
+        HarmonyParams {
+            step: 8,
+            window: 16,
+            embedding: 8,
+            delay: 1,
+            neighbours: 0.1,
+            min_similarity: 0.7,
+            gap_onset: 5.0,
+            gap_extension: 0.5,
+            min_seconds: 6.0,
+            max_p: 0.05,
+            max_passages: 10,
+            shuffles: 99,
+            block: 16,
+            seed: 20_261_202,
+            max_cells: 16_000_000,
+        }
+    }
+}
+
+/// One shared harmonic passage.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HarmonicMatch {
+    /// Start and end in A, seconds of A's timeline.
+    pub a_seconds: [f64; 2],
+    /// Start and end in B, seconds of B's timeline.
+    pub b_seconds: [f64; 2],
+    /// The Qmax value of the passage (recurrent states on the path, less gap penalties).
+    pub score: f32,
+    /// Recurrent states on the path.
+    pub recurrences: usize,
+    /// Mean cosine similarity of the aligned (transposed) chroma frames on the path.
+    pub similarity: f64,
+    /// Empirical p-value from the shuffled recurrence plots.
+    pub empirical_p: f64,
+    /// B's duration of the passage over A's (above 1 when B is slower).
+    pub duration_ratio: f64,
+    /// The path as (A seconds, B seconds) of its states, in order.
+    pub path: Vec<[f64; 2]>,
+}
+
+/// The result of a harmonic comparison.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HarmonicComparison {
+    /// B's key relative to A's by the optimal transposition index, folded to −5 … +6
+    /// semitones.
+    pub transposition_semitones: i32,
+    /// Seconds between feature frames.
+    pub frame_seconds: f64,
+    /// Share of all cells of the recurrence plot that are recurrent.
+    pub recurrence_rate: f64,
+    /// The largest Qmax among the shuffled plots (the level a passage must pass to reach the
+    /// smallest p-value).
+    pub null_max: f32,
+    /// Shared passages, strongest first.
+    pub matches: Vec<HarmonicMatch>,
+}
+
+/// A binary cross recurrence plot, rows = A's states, columns = B's states.
+struct Plot {
+    rows: usize,
+    cols: usize,
+    cells: Vec<bool>,
+}
+
+impl Plot {
+    fn at(&self, i: usize, j: usize) -> bool {
+        self.cells[i * self.cols + j]
+    }
+}
+
+/// Compares the harmony of two pieces (see the module documentation).
+pub fn compare_harmony(
+    a: &ChromaLayer,
+    b: &ChromaLayer,
+    params: &HarmonyParams,
+) -> HarmonicComparison {
+    let step = coarse_enough(a, b, params);
+    let fa = ChromaFeatures::from_layer(a, step, params.window.max(step));
+    let fb = ChromaFeatures::from_layer(b, step, params.window.max(step));
+    let mut best: Option<HarmonicComparison> = None;
+    for (index, _) in transposition_ranking(&fa, &fb).into_iter().take(2) {
+        let result = compare_at(&fa, &fb, index, params);
+        let better = match &best {
+            None => true,
+            Some(current) => strength(&result) > strength(current),
+        };
+        if better {
+            best = Some(result);
+        }
+    }
+    best.unwrap_or(HarmonicComparison {
+        transposition_semitones: 0,
+        frame_seconds: fa.hop_seconds,
+        recurrence_rate: 0.0,
+        null_max: 0.0,
+        matches: Vec::new(),
+    })
+}
+
+/// The step that keeps the plot under `max_cells`.
+fn coarse_enough(a: &ChromaLayer, b: &ChromaLayer, params: &HarmonyParams) -> usize {
+    let mut step = params.step.max(1);
+    while (a.frames.len() / step) * (b.frames.len() / step) > params.max_cells.max(1) {
+        step *= 2;
+    }
+    step
+}
+
+fn strength(result: &HarmonicComparison) -> f32 {
+    result.matches.first().map_or(0.0, |m| m.score)
+}
+
+fn compare_at(
+    fa: &ChromaFeatures,
+    fb: &ChromaFeatures,
+    index: i32,
+    params: &HarmonyParams,
+) -> HarmonicComparison {
+    let fb = fb.rotated(index);
+    let hop = fa.hop_seconds;
+    let empty = HarmonicComparison {
+        transposition_semitones: super::chroma::signed_shift(index),
+        frame_seconds: hop,
+        recurrence_rate: 0.0,
+        null_max: 0.0,
+        matches: Vec::new(),
+    };
+    let m = params.embedding.max(1);
+    let tau = params.delay.max(1);
+    let span = (m - 1) * tau;
+    if fa.len() <= span + 1 || fb.len() <= span + 1 {
+        return empty;
+    }
+    let plot = recurrence_plot(fa, &fb, m, tau, params);
+    let recurrent = plot.cells.iter().filter(|c| **c).count();
+    let null = null_maxima(&plot, params);
+    let null_max = null.iter().copied().fold(0.0f32, f32::max);
+    let mut blocked = vec![false; plot.rows * plot.cols];
+    let mut matches = Vec::new();
+    while matches.len() < params.max_passages {
+        let q = qmax(&plot, &blocked, params);
+        let Some((end, score)) = q.best else { break };
+        if score <= 0.0 {
+            break;
+        }
+        let path = traceback(&plot, &blocked, &q.values, end, params);
+        let (Some(first), Some(last)) = (path.first().copied(), path.last().copied()) else {
+            break;
+        };
+        for i in first.0..=last.0 {
+            for j in first.1..=last.1 {
+                blocked[i * plot.cols + j] = true;
+            }
+        }
+        let a_seconds = [first.0 as f64 * hop, (last.0 + span + 1) as f64 * hop];
+        let b_seconds = [first.1 as f64 * hop, (last.1 + span + 1) as f64 * hop];
+        let exceed = null.iter().filter(|x| **x >= score).count();
+        let empirical_p = (1 + exceed) as f64 / (null.len() + 1) as f64;
+        if a_seconds[1] - a_seconds[0] < params.min_seconds || empirical_p > params.max_p {
+            // The strongest remaining passage fails; weaker ones would fail the p-value
+            // too, but a short strong one may hide a longer one: keep looking while the
+            // score still passes the null.
+            if empirical_p > params.max_p {
+                break;
+            }
+            continue;
+        }
+        let similarity = path
+            .iter()
+            .map(|&(i, j)| f64::from(super::chroma::dot(&fa.frames[i], &fb.frames[j])))
+            .sum::<f64>()
+            / path.len() as f64;
+        let recurrences = path.iter().filter(|&&(i, j)| plot.at(i, j)).count();
+        let length_a = (last.0 - first.0 + 1) as f64;
+        let length_b = (last.1 - first.1 + 1) as f64;
+        matches.push(HarmonicMatch {
+            a_seconds,
+            b_seconds,
+            score,
+            recurrences,
+            similarity,
+            empirical_p,
+            duration_ratio: length_b / length_a,
+            path: path
+                .iter()
+                .map(|&(i, j)| [i as f64 * hop, j as f64 * hop])
+                .collect(),
+        });
+    }
+    HarmonicComparison {
+        recurrence_rate: recurrent as f64 / (plot.rows * plot.cols).max(1) as f64,
+        null_max,
+        matches,
+        ..empty
+    }
+}
+
+/// The mutual-nearest-neighbour cross recurrence plot of the delay-embedded sequences.
+fn recurrence_plot(
+    fa: &ChromaFeatures,
+    fb: &ChromaFeatures,
+    m: usize,
+    tau: usize,
+    params: &HarmonyParams,
+) -> Plot {
+    let kappa = params.neighbours;
+    // Unit frames: squared distance 2 − 2 cos, so a mean cosine c over m frames is a summed
+    // squared distance of m (2 − 2c).
+    let absolute = m as f32 * (2.0 - 2.0 * params.min_similarity);
+    let span = (m - 1) * tau;
+    let rows = fa.len() - span;
+    let cols = fb.len() - span;
+    let (na, nb) = (fa.len(), fb.len());
+    // Squared distance of single frames: |a|² + |b|² − 2 a·b.
+    let norm = |f: &[f32; 12]| f.iter().map(|v| v * v).sum::<f32>();
+    let norms_a: Vec<f32> = fa.frames.iter().map(norm).collect();
+    let norms_b: Vec<f32> = fb.frames.iter().map(norm).collect();
+    let mut single = vec![0f32; na * nb];
+    for i in 0..na {
+        let row = &mut single[i * nb..(i + 1) * nb];
+        for (j, cell) in row.iter_mut().enumerate() {
+            *cell = (norms_a[i] + norms_b[j]
+                - 2.0 * super::chroma::dot(&fa.frames[i], &fb.frames[j]))
+            .max(0.0);
+        }
+    }
+    // Embedded distance: the sum over the m delayed frame pairs.
+    let mut distance = vec![0f32; rows * cols];
+    for i in 0..rows {
+        for j in 0..cols {
+            let mut d = 0.0;
+            for k in 0..m {
+                d += single[(i + k * tau) * nb + j + k * tau];
+            }
+            distance[i * cols + j] = d;
+        }
+    }
+    let rank_a = ((kappa * cols as f64).round() as usize).clamp(1, cols);
+    let rank_b = ((kappa * rows as f64).round() as usize).clamp(1, rows);
+    let mut scratch = Vec::with_capacity(rows.max(cols));
+    let row_limit: Vec<f32> = (0..rows)
+        .map(|i| {
+            kth(
+                &mut scratch,
+                distance[i * cols..(i + 1) * cols].iter().copied(),
+                rank_a,
+            )
+        })
+        .collect();
+    let col_limit: Vec<f32> = (0..cols)
+        .map(|j| {
+            kth(
+                &mut scratch,
+                (0..rows).map(|i| distance[i * cols + j]),
+                rank_b,
+            )
+        })
+        .collect();
+    let cells = (0..rows * cols)
+        .map(|c| {
+            let d = distance[c];
+            d <= row_limit[c / cols] && d <= col_limit[c % cols] && d <= absolute
+        })
+        .collect();
+    Plot { rows, cols, cells }
+}
+
+/// The k-th smallest (1-based) of the values.
+fn kth(scratch: &mut Vec<f32>, values: impl Iterator<Item = f32>, k: usize) -> f32 {
+    scratch.clear();
+    scratch.extend(values);
+    if scratch.is_empty() {
+        return 0.0;
+    }
+    let k = k.clamp(1, scratch.len()) - 1;
+    let (_, value, _) = scratch.select_nth_unstable_by(k, f32::total_cmp);
+    *value
+}
+
+struct QResult {
+    values: Vec<f32>,
+    best: Option<((usize, usize), f32)>,
+}
+
+/// The Qmax matrix, with closed cells treated as non-recurrent and reset to 0.
+fn qmax(plot: &Plot, blocked: &[bool], params: &HarmonyParams) -> QResult {
+    let (rows, cols) = (plot.rows, plot.cols);
+    let mut q = vec![0f32; rows * cols];
+    let mut best: Option<((usize, usize), f32)> = None;
+    for i in 0..rows {
+        for j in 0..cols {
+            let c = i * cols + j;
+            if blocked[c] {
+                continue;
+            }
+            let value = cell_value(plot, blocked, &q, i, j, params);
+            q[c] = value;
+            if value > best.map_or(0.0, |b| b.1) {
+                best = Some(((i, j), value));
+            }
+        }
+    }
+    QResult { values: q, best }
+}
+
+/// The predecessors of a cell: diagonal, two rows back, two columns back.
+fn predecessors(i: usize, j: usize) -> [Option<(usize, usize)>; 3] {
+    [
+        (i >= 1 && j >= 1).then(|| (i - 1, j - 1)),
+        (i >= 2 && j >= 1).then(|| (i - 2, j - 1)),
+        (i >= 1 && j >= 2).then(|| (i - 1, j - 2)),
+    ]
+}
+
+fn recurrent(plot: &Plot, blocked: &[bool], i: usize, j: usize) -> bool {
+    !blocked[i * plot.cols + j] && plot.at(i, j)
+}
+
+fn cell_value(
+    plot: &Plot,
+    blocked: &[bool],
+    q: &[f32],
+    i: usize,
+    j: usize,
+    params: &HarmonyParams,
+) -> f32 {
+    let cols = plot.cols;
+    if recurrent(plot, blocked, i, j) {
+        let mut best = 0f32;
+        for (pi, pj) in predecessors(i, j).into_iter().flatten() {
+            best = best.max(q[pi * cols + pj]);
+        }
+        best + 1.0
+    } else {
+        let mut best = 0f32;
+        for (pi, pj) in predecessors(i, j).into_iter().flatten() {
+            let gap = if recurrent(plot, blocked, pi, pj) {
+                params.gap_onset
+            } else {
+                params.gap_extension
+            };
+            best = best.max(q[pi * cols + pj] - gap);
+        }
+        best
+    }
+}
+
+/// The path ending at `end`, followed back through the predecessor that produced each value
+/// until the value falls to zero; trimmed to start and end on recurrent cells.
+fn traceback(
+    plot: &Plot,
+    blocked: &[bool],
+    q: &[f32],
+    end: (usize, usize),
+    params: &HarmonyParams,
+) -> Vec<(usize, usize)> {
+    let cols = plot.cols;
+    let mut path = vec![end];
+    let (mut i, mut j) = end;
+    loop {
+        let here = q[i * cols + j];
+        if here <= 0.0 {
+            break;
+        }
+        let is_recurrent = recurrent(plot, blocked, i, j);
+        let mut next = None;
+        for (pi, pj) in predecessors(i, j).into_iter().flatten() {
+            let before = q[pi * cols + pj];
+            let expected = if is_recurrent {
+                before + 1.0
+            } else if recurrent(plot, blocked, pi, pj) {
+                before - params.gap_onset
+            } else {
+                before - params.gap_extension
+            };
+            if before > 0.0 && (expected - here).abs() < 1e-4 {
+                next = Some((pi, pj));
+                break;
+            }
+        }
+        match next {
+            Some(p) => {
+                path.push(p);
+                (i, j) = p;
+            }
+            None => break,
+        }
+    }
+    path.reverse();
+    while path.len() > 1
+        && path
+            .first()
+            .is_some_and(|&(i, j)| !recurrent(plot, blocked, i, j))
+    {
+        path.remove(0);
+    }
+    path
+}
+
+/// Qmax of block-shuffled copies of the plot (columns moved in blocks), for the empirical
+/// p-value.
+fn null_maxima(plot: &Plot, params: &HarmonyParams) -> Vec<f32> {
+    let block = params.block.max(1);
+    let n_blocks = plot.cols.div_ceil(block);
+    let mut rng = ChaCha8Rng::seed_from_u64(params.seed);
+    let no_blocks = vec![false; plot.rows * plot.cols];
+    let mut order: Vec<usize> = (0..n_blocks).collect();
+    (0..params.shuffles)
+        .map(|_| {
+            order.shuffle(&mut rng);
+            let columns: Vec<usize> = order
+                .iter()
+                .flat_map(|b| (b * block)..((b + 1) * block).min(plot.cols))
+                .collect();
+            let mut cells = Vec::with_capacity(plot.cells.len());
+            for i in 0..plot.rows {
+                cells.extend(columns.iter().map(|&j| plot.at(i, j)));
+            }
+            let shuffled = Plot {
+                rows: plot.rows,
+                cols: plot.cols,
+                cells,
+            };
+            qmax(&shuffled, &no_blocks, params)
+                .best
+                .map_or(0.0, |b| b.1)
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn triad(root: usize, minor: bool) -> [f32; 12] {
+        // Major and minor triads (common practice): root, third (4 or 3), fifth (7).
+        let mut f = [0f32; 12];
+        for s in [0, if minor { 3 } else { 4 }, 7] {
+            f[(root + s) % 12] = 1.0;
+        }
+        f
+    }
+
+    /// A chromagram of one chord per `frames_per_chord` frames.
+    fn progression(chords: &[(usize, bool)], frames_per_chord: usize) -> ChromaLayer {
+        let frames = chords
+            .iter()
+            .flat_map(|&(r, m)| std::iter::repeat_n(triad(r, m), frames_per_chord))
+            .collect();
+        ChromaLayer {
+            hop_seconds: 512.0 / 22_050.0,
+            tuning: 0.0,
+            source: "notes",
+            frames,
+            onsets: Vec::new(),
+        }
+    }
+
+    /// A deterministic pseudo-random chord sequence (a linear congruential generator).
+    fn chords(seed: u64, n: usize) -> Vec<(usize, bool)> {
+        let mut x = seed;
+        (0..n)
+            .map(|_| {
+                x = x
+                    .wrapping_mul(6_364_136_223_846_793_005)
+                    .wrapping_add(1_442_695_040_888_963_407);
+                (((x >> 33) % 12) as usize, (x >> 20) % 2 == 1)
+            })
+            .collect()
+    }
+
+    #[test]
+    fn a_shared_progression_is_found_transposed_and_slower() {
+        // A: 16 random chords, then a 16-chord progression, then 16 random chords.
+        // B: 12 other chords, then the same progression a major second higher and 1.25×
+        // slower (tempo), then 12 others.
+        let shared = chords(7, 16);
+        let mut a_chords = chords(1, 16);
+        a_chords.extend(&shared);
+        a_chords.extend(chords(2, 16));
+        let mut b_before = chords(3, 12);
+        let moved: Vec<(usize, bool)> = shared.iter().map(|&(r, m)| ((r + 2) % 12, m)).collect();
+        let a = progression(&a_chords, 40);
+        let mut frames = progression(&b_before, 50).frames;
+        frames.extend(progression(&moved, 50).frames);
+        b_before = chords(4, 12);
+        frames.extend(progression(&b_before, 50).frames);
+        let b = ChromaLayer {
+            frames,
+            ..a.clone()
+        };
+        let result = compare_harmony(&a, &b, &HarmonyParams::default());
+        let best = &result.matches[0];
+        let hop = 512.0 / 22_050.0;
+        // Shared span in A: chords 16..32 of 40 frames; in B: chords 12..28 of 50 frames.
+        let (a0, a1) = (16.0 * 40.0 * hop, 32.0 * 40.0 * hop);
+        let (b0, b1) = (12.0 * 50.0 * hop, 28.0 * 50.0 * hop);
+        assert_eq!(result.transposition_semitones, 2);
+        assert!((best.a_seconds[0] - a0).abs() < 2.0, "{best:?}");
+        assert!((best.a_seconds[1] - a1).abs() < 2.0, "{best:?}");
+        assert!((best.b_seconds[0] - b0).abs() < 2.5, "{best:?}");
+        assert!((best.b_seconds[1] - b1).abs() < 2.5, "{best:?}");
+        assert!(
+            (best.duration_ratio - 1.25).abs() < 0.1,
+            "{}",
+            best.duration_ratio
+        );
+        assert!(best.empirical_p <= 0.01);
+    }
+
+    #[test]
+    fn unrelated_progressions_share_nothing() {
+        let a = progression(&chords(11, 48), 40);
+        let b = progression(&chords(12, 48), 40);
+        let result = compare_harmony(&a, &b, &HarmonyParams::default());
+        assert!(result.matches.is_empty(), "{:?}", result.matches);
+    }
+
+    #[test]
+    fn empty_and_tiny_inputs_give_no_passages() {
+        let empty = progression(&[], 1);
+        let tiny = progression(&chords(1, 2), 3);
+        for (a, b) in [(&empty, &empty), (&empty, &tiny), (&tiny, &tiny)] {
+            assert!(compare_harmony(a, b, &HarmonyParams::default())
+                .matches
+                .is_empty());
+        }
+    }
+}
