@@ -273,6 +273,30 @@ impl TempoMap {
         )
     }
 
+    /// The position in ticks at a time in seconds (the inverse of [`TempoMap::seconds_at`],
+    /// rounded to the nearest tick; 0 for times at or before the start).
+    pub fn ticks_at(&self, seconds: f64) -> i64 {
+        if !seconds.is_finite() || seconds <= 0.0 {
+            return 0;
+        }
+        let i = self
+            .elapsed
+            .partition_point(|e| *e <= seconds)
+            .saturating_sub(1);
+        let (change, base) = match (self.changes.get(i), self.elapsed.get(i)) {
+            (Some(c), Some(e)) => (*c, *e),
+            _ => (
+                TempoChange {
+                    ticks: 0,
+                    micros_per_quarter: DEFAULT_MICROS_PER_QUARTER,
+                },
+                0.0,
+            ),
+        };
+        let quarters = (seconds - base) * 1e6 / change.micros_per_quarter;
+        change.ticks + (quarters * f64::from(self.resolution)).round() as i64
+    }
+
     /// Quarter notes at a position in ticks.
     pub fn beats_at(&self, ticks: i64) -> Beats {
         Beats(ticks as f64 / f64::from(self.resolution))

@@ -23,9 +23,14 @@
 //!    long-range order), `shuffles` times with a seeded generator; a passage's empirical
 //!    p-value is `(1 + #{shuffled Qmax ≥ Q}) / (shuffles + 1)`.
 //!
-//! κ = 0.1, γo = 5 and γe = 0.5 are the values of Serrà et al. (2009); the frame rate and
-//! embedding (m = 8 frames of about 0.19 s, τ = 1) are chosen here so that a state spans about
-//! one and a half seconds, a bar or two of most music.
+//! Serrà et al. (2009) used κ = 0.1, γo = 5 and γe = 0.5 to rank whole songs; to place
+//! passages, collatio uses a sparser plot and a dearer gap (κ = 0.05, γe = 2) plus an absolute
+//! floor on the similarity of recurrent states (mean cosine 0.7), which keep a path from
+//! wandering through unrelated music on chance recurrences. These values, the frame rate and
+//! the embedding (m = 8 frames of about 0.19 s averaged over 0.74 s, τ = 1, so a state spans
+//! about two seconds) were chosen on the arrangement fixtures (`tests/harmony_arrangements.rs`):
+//! the shared progression of two arrangements is found with its bars and no passage is
+//! reported between unrelated pieces.
 
 use super::chroma::{transposition_ranking, ChromaFeatures};
 use crate::timeline::ChromaLayer;
@@ -34,25 +39,29 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
+/// Transposition indices tried, best profile match first (a transposed copy over another
+/// accompaniment may rank its true key second by the global profiles).
+const TRANSPOSITIONS_TRIED: usize = 2;
+
 /// Parameters of the harmonic comparison.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct HarmonyParams {
     /// Analysis frames per feature frame. Default 8 (≈ 0.19 s at the 23.2 ms analysis hop).
     pub step: usize,
-    /// Analysis frames averaged into one feature frame. Default 16 (≈ 0.37 s).
+    /// Analysis frames averaged into one feature frame. Default 32 (≈ 0.74 s).
     pub window: usize,
     /// Embedding dimension m (feature frames per state). Default 8.
     pub embedding: usize,
     /// Embedding delay τ in feature frames. Default 1.
     pub delay: usize,
-    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.1.
+    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.05.
     pub neighbours: f64,
     /// Lowest mean cosine similarity of the frames of two states for them to count as
     /// recurrent, whatever their rank. Default 0.7.
     pub min_similarity: f32,
     /// Penalty for opening a gap, γo. Default 5.
     pub gap_onset: f32,
-    /// Penalty for extending a gap, γe. Default 0.5.
+    /// Penalty for extending a gap, γe. Default 2.
     pub gap_extension: f32,
     /// Shortest passage reported, in seconds of A. Default 6.
     pub min_seconds: f64,
@@ -74,13 +83,13 @@ impl Default for HarmonyParams {
     fn default() -> Self {
         HarmonyParams {
             step: 8,
-            window: 16,
+            window: 32,
             embedding: 8,
             delay: 1,
-            neighbours: 0.1,
+            neighbours: 0.05,
             min_similarity: 0.7,
             gap_onset: 5.0,
-            gap_extension: 0.5,
+            gap_extension: 2.0,
             min_seconds: 6.0,
             max_p: 0.05,
             max_passages: 10,
@@ -153,7 +162,10 @@ pub fn compare_harmony(
     let fa = ChromaFeatures::from_layer(a, step, params.window.max(step));
     let fb = ChromaFeatures::from_layer(b, step, params.window.max(step));
     let mut best: Option<HarmonicComparison> = None;
-    for (index, _) in transposition_ranking(&fa, &fb).into_iter().take(2) {
+    for (index, _) in transposition_ranking(&fa, &fb)
+        .into_iter()
+        .take(TRANSPOSITIONS_TRIED)
+    {
         let result = compare_at(&fa, &fb, index, params);
         let better = match &best {
             None => true,

@@ -105,6 +105,9 @@ pub struct CompareArgs {
     pub statistics: StatisticsArgs,
 
     #[command(flatten)]
+    pub harmony: HarmonyArgs,
+
+    #[command(flatten)]
     pub audio: AudioArgs,
 
     #[command(flatten)]
@@ -198,6 +201,40 @@ impl ExhibitArgs {
             export_dir: self.export.clone(),
         };
         Ok((options, outputs))
+    }
+}
+
+/// Harmonic evidence and the alignment of a recording to a score.
+#[derive(Debug, Args)]
+pub struct HarmonyArgs {
+    /// Leave out the harmonic (chroma) comparison.
+    #[arg(long, help_heading = "HARMONY")]
+    pub no_harmony: bool,
+    /// Shuffled recurrence plots behind each harmonic passage's p-value.
+    #[arg(long, default_value_t = 99, value_name = "N", help_heading = "HARMONY")]
+    pub harmony_shuffles: usize,
+    /// Largest p-value of a harmonic passage reported.
+    #[arg(
+        long,
+        default_value_t = 0.05,
+        value_name = "P",
+        help_heading = "HARMONY"
+    )]
+    pub harmony_max_p: f64,
+    /// Keep a recording's beat-tracked bars even when it follows the score it is compared
+    /// with (by default the score's bars are put onto the recording by chroma alignment).
+    #[arg(long, help_heading = "HARMONY")]
+    pub keep_recording_bars: bool,
+}
+
+impl HarmonyArgs {
+    /// The library parameters of the harmonic comparison.
+    pub fn params(&self) -> collatio::align::harmony::HarmonyParams {
+        collatio::align::harmony::HarmonyParams {
+            shuffles: self.harmony_shuffles,
+            max_p: self.harmony_max_p,
+            ..collatio::align::harmony::HarmonyParams::default()
+        }
     }
 }
 

@@ -79,13 +79,22 @@ fn compare(args: CompareArgs) -> Result<i32> {
     } else {
         None
     };
-    let a = read_file(&args.a, &options_a)?;
-    let b = read_file(&args.b, &options_b)?;
+    if !(0.0..=1.0).contains(&args.harmony.harmony_max_p) {
+        return Err(args::UsageError("--harmony-max-p must lie between 0 and 1".into()).into());
+    }
+    let mut a = read_file(&args.a, &options_a)?;
+    let mut b = read_file(&args.b, &options_b)?;
+    let synchronisation = if args.harmony.keep_recording_bars {
+        None
+    } else {
+        follow_score(&mut a, &mut b)
+    };
     let index = match &args.statistics.corpus {
         Some(path) => Some(corpus::load_index(path)?),
         None => None,
     };
     let mut result = collatio::compare::compare(&a, &b, &params);
+    result.synchronisation = synchronisation;
     let (seq_a, seq_b) = (
         collatio::features::Sequence::from_piece(&a),
         collatio::features::Sequence::from_piece(&b),
@@ -106,6 +115,9 @@ fn compare(args: CompareArgs) -> Result<i32> {
             &path.display().to_string(),
             &params,
         );
+    }
+    if !args.harmony.no_harmony {
+        collatio::compare::harmony::add_harmony(&mut result, &a, &b, &args.harmony.params());
     }
     if let Some((options, outputs)) = &exhibit {
         let written =
@@ -132,6 +144,23 @@ fn compare(args: CompareArgs) -> Result<i32> {
     }
     write_stdout(&text)?;
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
+}
+
+/// When one work is a recording and the other a score or MIDI file, aligns the recording to
+/// the score and, if it performs it, gives it the score's bars.
+fn follow_score(
+    a: &mut collatio::timeline::Piece,
+    b: &mut collatio::timeline::Piece,
+) -> Option<collatio::compare::sync::SyncSummary> {
+    let params = collatio::align::sync::SyncParams::default();
+    match (
+        a.provenance.format.is_audio(),
+        b.provenance.format.is_audio(),
+    ) {
+        (false, true) => collatio::compare::sync::follow_score(a, b, "a", &params),
+        (true, false) => collatio::compare::sync::follow_score(b, a, "b", &params),
+        _ => None,
+    }
 }
 
 /// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically (a temporary

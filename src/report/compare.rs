@@ -50,6 +50,10 @@ pub struct CompareRecord {
     pub corpus: Option<crate::compare::CorpusSummary>,
     /// Shared passages, strongest first.
     pub passages: Vec<Passage>,
+    /// Harmonic (chroma) evidence (`null` when not computed).
+    pub harmony: Option<crate::compare::harmony::HarmonicEvidence>,
+    /// The alignment of a recording to a score (`null` unless one work is each).
+    pub synchronisation: Option<crate::compare::sync::SyncSummary>,
 }
 
 fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
@@ -82,6 +86,8 @@ pub fn record(a: &Piece, b: &Piece, params: &AlignParams, result: &Comparison) -
         null_model: result.null_model.clone(),
         corpus: result.corpus.clone(),
         passages: result.passages.clone(),
+        harmony: result.harmony.clone(),
+        synchronisation: result.synchronisation.clone(),
     }
 }
 
@@ -139,8 +145,10 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
         result.passages.len(),
         if result.passages.len() == 1 { "" } else { "s" }
     ));
+    out.push_str(&render_synchronisation(result));
     if result.passages.is_empty() {
-        out.push_str("\nNo shared passage reaches the reporting threshold.\n");
+        out.push_str("\nNo shared melodic passage reaches the reporting threshold.\n");
+        out.push_str(&render_harmony(result));
         return out;
     }
     out.push_str(&format!(
@@ -178,7 +186,102 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
     for p in &result.passages {
         out.push_str(&render_passage(a, b, p));
     }
+    out.push_str(&render_harmony(result));
     out
+}
+
+/// How a recording follows a score, when one work is each.
+fn render_synchronisation(result: &Comparison) -> String {
+    let Some(s) = &result.synchronisation else {
+        return String::new();
+    };
+    let recording = s.recording.to_uppercase();
+    let score = s.score.to_uppercase();
+    if !s.follows {
+        return format!(
+            "\n{recording} (recording) does not follow {score} (score) closely enough to take its \
+             bars (chroma cost ratio {:.2}); its bars are estimated from tracked beats.\n",
+            s.cost_ratio
+        );
+    }
+    let (first, last) = (s.bar_map.first(), s.bar_map.last());
+    format!(
+        "\n{recording} (recording) follows {score} (score): chroma cost ratio {:.2}, {}; bars {}–{} \
+         of {score} placed at {:.2}–{:.2} s of {recording}{}\n",
+        s.cost_ratio,
+        crate::compare::describe_transposition(s.transposition_semitones),
+        first.map_or("", |b| b.label.as_str()),
+        last.map_or("", |b| b.label.as_str()),
+        first.map_or(0.0, |b| b.recording_seconds),
+        last.map_or(0.0, |b| b.recording_seconds),
+        if s.bars_from_score {
+            "; the recording's bars are the score's"
+        } else {
+            ""
+        }
+    )
+}
+
+/// The harmonic passages, when computed.
+fn render_harmony(result: &Comparison) -> String {
+    let Some(h) = &result.harmony else {
+        return String::new();
+    };
+    let mut out = format!(
+        "\nHarmonic evidence (chroma of {} in A, of {} in B; B {} by the optimal transposition \
+         index): {} passage{}\n",
+        chroma_source(h.sources[0]),
+        chroma_source(h.sources[1]),
+        h.transposition,
+        h.passages.len(),
+        if h.passages.len() == 1 { "" } else { "s" }
+    );
+    if h.passages.is_empty() {
+        return out;
+    }
+    out.push_str(&format!(
+        " {:>2}  {:<26} {:<26} {:>7}  {:>5}  {:>6}  {:>7}  {}\n",
+        "#", "in A", "in B", "tempo", "Qmax", "cosine", "p", "confirms"
+    ));
+    for p in &h.passages {
+        let span = |s: &crate::compare::harmony::HarmonicSide| {
+            format!(
+                "{} ({:.1}–{:.1} s)",
+                bar_span(&s.bars[0], &s.bars[1]),
+                s.seconds[0],
+                s.seconds[1]
+            )
+        };
+        out.push_str(&format!(
+            " {:>2}  {:<26} {:<26} {:>6.2}x  {:>5.0}  {:>6.2}  {:>7}  {}\n",
+            p.rank,
+            span(&p.a),
+            span(&p.b),
+            p.tempo_ratio,
+            p.score,
+            p.similarity,
+            format!("{:.3}", p.empirical_p),
+            p.confirms
+                .map_or_else(|| "-".to_string(), |r| format!("melodic #{r}"))
+        ));
+    }
+    out
+}
+
+fn chroma_source(source: &str) -> &'static str {
+    if source == "recording" {
+        "the recording"
+    } else {
+        "all notated parts"
+    }
+}
+
+fn bar_span(first: &str, last: &str) -> String {
+    if first == last {
+        format!("bar {first}")
+    } else {
+        format!("bars {first}–{last}")
+    }
 }
 
 /// One passage: where, then the aligned notes in rows with a marker line.

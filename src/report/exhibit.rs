@@ -995,6 +995,10 @@ pub struct ExhibitContext {
     /// The statistics stage's summary of its null model, as `name = value` pairs (empty when
     /// it did not run).
     pub null_model: String,
+    /// Harmonic evidence, when computed.
+    pub harmony: Option<super::evidence::HarmonyContext>,
+    /// A recording placed on a score, when one work is each.
+    pub sync: Option<super::evidence::SyncContext>,
 }
 
 /// The scalar fields of a serialised summary as `name = value, ...` (numbers to 4 places).
@@ -1062,6 +1066,8 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         null_model: serde_json::to_value(&r.null_model)
             .map(|v| summary_text(&v))
             .unwrap_or_default(),
+        harmony: super::evidence::harmony_context(r.harmony.as_ref()),
+        sync: super::evidence::sync_context(r.synchronisation.as_ref()),
     }
 }
 

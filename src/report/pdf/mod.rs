@@ -26,12 +26,13 @@ use layout::{palette, Flow, Geometry, Rgbf};
 use text::{parse_blocks, Face};
 
 /// The section templates, compiled in: (name, source).
-pub const TEMPLATES: [(&str, &str); 9] = [
+pub const TEMPLATES: [(&str, &str); 10] = [
     ("cover", include_str!("../../../templates/cover.tera")),
     ("summary", include_str!("../../../templates/summary.tera")),
     ("dotplot", include_str!("../../../templates/dotplot.tera")),
     ("passage", include_str!("../../../templates/passage.tera")),
     ("compared", include_str!("../../../templates/compared.tera")),
+    ("harmony", include_str!("../../../templates/harmony.tera")),
     ("method", include_str!("../../../templates/method.tera")),
     (
         "limitations",
@@ -119,6 +120,13 @@ pub fn render(ex: &Exhibit<'_>) -> Result<(Vec<u8>, usize), ExhibitError> {
         }
     }
 
+    if data.harmony.is_some() || data.sync.is_some() {
+        flow.new_page();
+        let text = render_template(&tera, "harmony", &ctx)?;
+        for block in parse_blocks(&text) {
+            flow.block(&block, &mut |_, _| {});
+        }
+    }
     for (name, fresh_page) in [
         ("compared", true),
         ("method", true),

@@ -18,6 +18,9 @@
 //!   aligned with itself, capped to [0, 1]: the share of the shorter melody's possible evidence
 //!   that the shared passages carry.
 
+pub mod harmony;
+pub mod sync;
+
 use crate::align::{align, AlignParams, Alignment, Step};
 use crate::features::Sequence;
 use crate::theory::{key_name, Interval};
@@ -46,6 +49,10 @@ pub struct Comparison {
     pub null_model: Option<crate::stats::null::NullSummary>,
     /// The reference corpus consulted, when one was given.
     pub corpus: Option<CorpusSummary>,
+    /// Evidence from the two pieces' chroma, when computed.
+    pub harmony: Option<harmony::HarmonicEvidence>,
+    /// How a recording follows a score, when one side is each.
+    pub synchronisation: Option<sync::SyncSummary>,
 }
 
 /// The reference corpus a comparison was weighed against.
@@ -172,6 +179,9 @@ pub struct Passage {
     pub significance: Option<Significance>,
     /// How common the figure is in a reference corpus, when one is given.
     pub commonness: Option<Commonness>,
+    /// The evidence that found the passage: `melody`, and `harmony` when a harmonic passage
+    /// covers the same stretch of both works.
+    pub evidence: Vec<&'static str>,
 }
 
 /// Compares the selected melodies of two pieces.
@@ -203,6 +213,8 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         passages,
         null_model: None,
         corpus: None,
+        harmony: None,
+        synchronisation: None,
     }
 }
 
@@ -476,5 +488,6 @@ fn passage(
         pairs,
         significance: None,
         commonness: None,
+        evidence: vec!["melody"],
     }
 }

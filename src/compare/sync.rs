@@ -1,0 +1,171 @@
+//! A recording placed on a score's bars: when one work of a comparison is a score (or MIDI
+//! file) and the other a recording, the recording is aligned to the score by chroma DTW
+//! ([`crate::align::sync`]). When the recording performs the score, its beat-tracked bar grid
+//! is replaced by the score's bars at the times the alignment gives them, and every note of
+//! the recording takes its bar and its position in the bar from the score; passages are then
+//! reported in the score's bar numbers on both sides and in the recording's seconds.
+
+use crate::align::sync::{synchronise, SyncParams, Synchronisation};
+use crate::features::chroma::chroma_of;
+use crate::timeline::{Bar, Piece, TimeSignature};
+use crate::units::{Beats, Seconds};
+use serde::Serialize;
+
+/// Where one bar of the score falls in the recording.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BarTime {
+    /// Bar label as printed in the score.
+    pub label: String,
+    /// Start of the bar in the score's own timing, seconds.
+    pub score_seconds: f64,
+    /// Start of the bar in the recording, seconds.
+    pub recording_seconds: f64,
+}
+
+/// The alignment of a recording to a score, as a comparison reports it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SyncSummary {
+    /// Which work is the score: `a` or `b`.
+    pub score: &'static str,
+    /// Which work is the recording: `a` or `b`.
+    pub recording: &'static str,
+    /// Whether the recording performs the score (see [`crate::align::sync`]).
+    pub follows: bool,
+    /// Mean chroma cost of the path over the mean cost of all pairs.
+    pub cost_ratio: f64,
+    /// The recording's key relative to the score's, semitones.
+    pub transposition_semitones: i32,
+    /// The part of the score the recording covers, seconds of the score.
+    pub score_span_seconds: [f64; 2],
+    /// Whether the recording's bars were taken from the score.
+    pub bars_from_score: bool,
+    /// Start of every covered bar in the recording.
+    pub bar_map: Vec<BarTime>,
+    /// Every parameter used.
+    pub parameters: SyncParams,
+}
+
+/// Aligns `recording` to `score`; when it follows, gives the recording the score's bars.
+/// `score_side` names the score's side (`a` or `b`). `None` when either chroma is too short.
+pub fn follow_score(
+    score: &Piece,
+    recording: &mut Piece,
+    score_side: &'static str,
+    params: &SyncParams,
+) -> Option<SyncSummary> {
+    let sync = synchronise(&chroma_of(score), &chroma_of(recording), params)?;
+    let bar_map: Vec<BarTime> = score
+        .bars
+        .iter()
+        .filter_map(|bar| {
+            sync.recording_time(bar.start_seconds.0).map(|t| BarTime {
+                label: bar.label.clone(),
+                score_seconds: bar.start_seconds.0,
+                recording_seconds: t,
+            })
+        })
+        .collect();
+    let bars_from_score = sync.follows && bar_map.len() >= 2;
+    if bars_from_score {
+        take_score_bars(recording, score, &sync);
+    }
+    Some(SyncSummary {
+        score: score_side,
+        recording: if score_side == "a" { "b" } else { "a" },
+        follows: sync.follows,
+        cost_ratio: sync.cost_ratio,
+        transposition_semitones: sync.transposition_semitones,
+        score_span_seconds: sync.score_span,
+        bars_from_score,
+        bar_map,
+        parameters: params.clone(),
+    })
+}
+
+/// Replaces the recording's bars with the score's bars the path reaches, and gives each note
+/// the bar and the position in the bar its time has in the score.
+fn take_score_bars(recording: &mut Piece, score: &Piece, sync: &Synchronisation) {
+    let mut bars: Vec<Bar> = Vec::new();
+    let mut source: Vec<usize> = Vec::new();
+    for (k, bar) in score.bars.iter().enumerate() {
+        let Some(t) = sync.recording_time(bar.start_seconds.0) else {
+            continue;
+        };
+        let ticks = recording.tempo.ticks_at(t);
+        if bars.last().is_some_and(|b| b.start_ticks >= ticks) {
+            continue;
+        }
+        bars.push(Bar {
+            index: bars.len(),
+            label: bar.label.clone(),
+            start_ticks: ticks,
+            length_ticks: 0,
+            start: recording.tempo.beats_at(ticks),
+            start_seconds: Seconds(t),
+            time_signature: bar.time_signature,
+            pickup: bar.pickup,
+            implicit: bar.implicit,
+            estimated: true,
+        });
+        source.push(k);
+    }
+    if bars.len() < 2 {
+        return;
+    }
+    let end_ticks = recording
+        .melody
+        .iter()
+        .map(|n| n.end_ticks())
+        .max()
+        .unwrap_or(0);
+    for k in 0..bars.len() {
+        let next = bars.get(k + 1).map_or(end_ticks, |b| b.start_ticks);
+        bars[k].length_ticks = (next - bars[k].start_ticks).max(1);
+    }
+    let place = |onset_seconds: f64| -> (usize, Beats) {
+        let k = bars
+            .partition_point(|b| b.start_seconds.0 <= onset_seconds)
+            .saturating_sub(1);
+        // The note's position in its bar, read from the score's timing.
+        let offset = sync
+            .score_time(onset_seconds)
+            .and_then(|t| {
+                let bar = score.bars.get(*source.get(k)?)?;
+                let ticks = score.tempo.ticks_at(t);
+                Some(score.tempo.beats_at(ticks).0 - bar.start.0)
+            })
+            .unwrap_or(0.0)
+            .max(0.0);
+        (k, Beats(offset))
+    };
+    for note in recording
+        .melody
+        .iter_mut()
+        .chain(recording.parts.iter_mut().flat_map(|p| p.notes.iter_mut()))
+    {
+        let (bar, offset) = place(note.onset_seconds.0);
+        note.bar = bar;
+        note.offset_in_bar = offset;
+    }
+    let mut signatures: Vec<TimeSignature> = Vec::new();
+    for bar in &bars {
+        let (numerator, denominator) = bar.time_signature;
+        if signatures
+            .last()
+            .is_none_or(|t| (t.numerator, t.denominator) != bar.time_signature)
+        {
+            signatures.push(TimeSignature {
+                ticks: bar.start_ticks,
+                numerator,
+                denominator,
+            });
+        }
+    }
+    recording.bars = bars;
+    recording.time_signatures = signatures;
+    recording.provenance.detail.push_str(&format!(
+        "; bars taken from the score by chroma alignment (cost ratio {:.2}), as exact as \
+         the alignment",
+        sync.cost_ratio
+    ));
+}

@@ -1,0 +1,134 @@
+//! Harmonic comparison and score following on recordings of full arrangements.
+//!
+//! Source of truth: FluidSynth 2.3.1 renders (FluidR3 General MIDI soundfont) of MIDI files
+//! written for these tests by `tests/fixtures/arrangements/make_arrangements.py`, whose
+//! `truth.json` files give the bar starts from the MIDI tempo maps and the chords per bar.
+//! `cinderpath_rearranged` takes `larkfield`'s melody of bars 5–12, with those bars' chords,
+//! up a minor third and 1.2 times faster, as its bars 9–16; its bars 17–20 repeat the
+//! progression of `larkfield`'s bars 13–16 in the new key (Gm E♭ F B♭), so the two share one
+//! harmonic stretch: `larkfield` bars 5–16 and `cinderpath_rearranged` bars 9–20.
+//! `glimmerfen` and `weirmoor` share nothing with `larkfield`.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
+mod common;
+
+use collatio::align::harmony::{compare_harmony, HarmonyParams};
+use collatio::features::chroma::chroma_of;
+use collatio::ingest::{read_file, ReadOptions};
+use collatio::timeline::ChromaLayer;
+use serde_json::Value;
+use std::path::PathBuf;
+
+fn fixture(name: &str) -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/fixtures/arrangements")
+        .join(name)
+}
+
+fn chroma(name: &str) -> ChromaLayer {
+    chroma_of(&read_file(&fixture(name), &ReadOptions::default()).unwrap())
+}
+
+fn bar_starts(render: &str) -> Vec<f64> {
+    let text = std::fs::read_to_string(fixture(&format!("{render}.truth.json"))).unwrap();
+    let truth: Value = serde_json::from_str(&text).unwrap();
+    truth["bar_starts"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect()
+}
+
+#[test]
+fn the_shared_progression_of_two_arrangements_is_found_with_its_bars() {
+    let result = compare_harmony(
+        &chroma("larkfield.ogg"),
+        &chroma("cinderpath_rearranged.ogg"),
+        &HarmonyParams::default(),
+    );
+    // Up a minor third (fixtures README).
+    assert_eq!(result.transposition_semitones, 3);
+    let best = result.matches.first().expect("a harmonic passage");
+    let lark = bar_starts("larkfield");
+    let cinder = bar_starts("cinderpath_rearranged");
+    // Bars are 2.4 s (larkfield, 4/4 at 100) and 2.0 s (cinderpath, 4/4 at 120): the span
+    // must start within one bar of the truth and end within one bar of it.
+    let lark_end = lark[15] + 2.4;
+    let cinder_end = cinder[19] + 2.0;
+    assert!((best.a_seconds[0] - lark[4]).abs() < 2.4, "{best:?}");
+    assert!((best.a_seconds[1] - lark_end).abs() < 2.4, "{best:?}");
+    assert!((best.b_seconds[0] - cinder[8]).abs() < 2.0, "{best:?}");
+    assert!((best.b_seconds[1] - cinder_end).abs() < 2.0, "{best:?}");
+    // B is 1.2 times faster: B's span over A's about 1/1.2.
+    assert!(
+        (best.duration_ratio - 1.0 / 1.2).abs() < 0.1,
+        "{}",
+        best.duration_ratio
+    );
+    assert!(best.empirical_p <= 0.01);
+}
+
+#[test]
+fn unrelated_arrangements_share_no_harmonic_passage() {
+    for (a, b) in [
+        ("larkfield.ogg", "glimmerfen.ogg"),
+        ("larkfield.ogg", "weirmoor.ogg"),
+        ("cinderpath_rearranged.ogg", "glimmerfen.ogg"),
+        ("weirmoor.ogg", "tidewrack.ogg"),
+    ] {
+        let result = compare_harmony(&chroma(a), &chroma(b), &HarmonyParams::default());
+        assert!(result.matches.is_empty(), "{a} / {b}: {:?}", result.matches);
+    }
+}
+
+#[test]
+fn a_tempo_change_of_the_whole_recording_does_not_matter() {
+    // The same render slowed by SoX `tempo 0.8`: one passage covering the piece.
+    let result = compare_harmony(
+        &chroma("tidewrack.ogg"),
+        &chroma("tidewrack_tempo0.8.ogg"),
+        &HarmonyParams::default(),
+    );
+    let best = result.matches.first().expect("a harmonic passage");
+    assert_eq!(result.transposition_semitones, 0);
+    assert!(best.a_seconds[1] - best.a_seconds[0] > 30.0, "{best:?}");
+    assert!((best.duration_ratio - 1.25).abs() < 0.1, "{best:?}");
+}
+
+#[test]
+fn compare_puts_the_scores_bars_onto_a_recording_of_it() {
+    let score = fixture("larkfield.musicxml");
+    let recording = fixture("larkfield_tempo0.8.ogg");
+    let out = common::run_collatio(&[
+        "compare",
+        score.to_str().unwrap(),
+        recording.to_str().unwrap(),
+        "--format",
+        "json",
+        "--shuffles",
+        "0",
+    ]);
+    let record: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let sync = &record["synchronisation"];
+    assert_eq!(sync["score"], "a");
+    assert_eq!(sync["follows"], true);
+    assert_eq!(sync["bars_from_score"], true);
+    // Every bar start within 100 ms of the truth (SoX tempo 0.8 of the render).
+    let truth = bar_starts("larkfield_tempo0.8");
+    let map = sync["bar_map"].as_array().unwrap();
+    assert_eq!(map.len(), truth.len());
+    for (entry, expected) in map.iter().zip(&truth) {
+        let t = entry["recording_seconds"].as_f64().unwrap();
+        assert!((t - expected).abs() <= 0.1, "{entry} vs {expected}");
+    }
+    // Passages name the score's bars on the recording's side too.
+    let passages = record["passages"].as_array().unwrap();
+    assert!(!passages.is_empty());
+    let labels: Vec<String> = (1..=16).map(|k| k.to_string()).collect();
+    for p in passages {
+        for bar in p["b"]["bars"].as_array().unwrap() {
+            assert!(labels.contains(&bar.as_str().unwrap().to_string()), "{p}");
+        }
+    }
+}
