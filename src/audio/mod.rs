@@ -15,6 +15,7 @@
 //! | [`chroma`] | tuning estimate and 12-bin chroma | Ellis's chroma filter bank (chroma_stft) |
 //! | [`pitch`] | f0 per frame | YIN (de Cheveigné & Kawahara 2002), pYIN (Mauch & Dixon 2014) |
 //! | [`notes`] | notes from the f0 track | segmentation of voiced runs; median pitch |
+//! | [`melody`] | predominant melody of polyphonic audio, with unsure spans | salience by harmonic summation, pitch contours (Salamon & Gómez 2012) |
 //! | [`beats`] | onset strength, tempo, beats | spectral flux; dynamic programming (Ellis 2007) |
 //! | [`eval`] | evaluation measures | as defined by mir_eval (Raffel et al. 2014) |
 //! | [`export`] | a melody as a Standard MIDI File | midly's writer |
@@ -44,6 +45,7 @@ pub mod chroma;
 pub mod decode;
 pub mod eval;
 pub mod export;
+pub mod melody;
 pub mod notes;
 pub mod pitch;
 pub mod resample;
