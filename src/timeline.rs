@@ -458,6 +458,9 @@ pub struct Piece {
     pub selection: Selection,
     /// Warnings met while reading, each naming where.
     pub warnings: Vec<String>,
+    /// Time spans in seconds where a recording's melody extractor was unsure (empty for
+    /// scores, MIDI files and solo recordings).
+    pub unsure_spans: Vec<[f64; 2]>,
     /// The harmony layer measured from a recording (`None` for scores and MIDI files, whose
     /// chroma [`crate::features::chroma::chroma_of`] derives from all their parts).
     pub chroma: Option<ChromaLayer>,

@@ -28,7 +28,7 @@
 //! floor on the similarity of recurrent states (mean cosine 0.7), which keep a path from
 //! wandering through unrelated music on chance recurrences. These values, the frame rate and
 //! the embedding (m = 8 frames of about 0.19 s averaged over 0.74 s, τ = 1, so a state spans
-//! about two seconds) were chosen on the arrangement fixtures (`tests/harmony_arrangements.rs`):
+//! about two seconds) were chosen on the arrangement fixtures (`tests/arrangements.rs`):
 //! the shared progression of two arrangements is found with its bars and no passage is
 //! reported between unrelated pieces.
 

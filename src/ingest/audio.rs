@@ -405,7 +405,7 @@ fn build(
     let detail = format!(
         "{} in {}, {} Hz, {} channel{}, {:.3} s; analysed {range} ({:.3} s) at {} Hz; tuning \
          {:+.0} cents; tempo {:.1} bpm (tracked); meter {numerator}/{denominator} ({}); \
-         downbeat {}; bars estimated from the beats; {} notes transcribed (pYIN)",
+         downbeat {}; bars estimated from the beats; {} notes transcribed ({}){}",
         decoded.codec,
         container_name(format),
         decoded.source_rate,
@@ -423,6 +423,12 @@ fn build(
             "estimated"
         },
         notes.len(),
+        if analysis.melody_source == "mix" {
+            "predominant melody of a mix"
+        } else {
+            "pYIN, one line"
+        },
+        unsure_text(&analysis.unsure),
     );
     let part = Part::single_line("audio".into(), "transcribed melody".into(), notes);
     Ok(RawPiece {
@@ -443,7 +449,21 @@ fn build(
         ornaments: Vec::new(),
         warnings,
         chroma: Some(chroma_layer(decoded, analysis)),
+        unsure_spans: analysis.unsure.iter().map(|&(a, b)| [a, b]).collect(),
     })
+}
+
+/// The unsure spans of a transcription in words, e.g. `; unsure over 3 spans (4.2 s)`.
+fn unsure_text(spans: &[(f64, f64)]) -> String {
+    if spans.is_empty() {
+        return String::new();
+    }
+    let total: f64 = spans.iter().map(|(a, b)| b - a).sum();
+    format!(
+        "; melody extractor unsure over {} span{} ({total:.1} s)",
+        spans.len(),
+        if spans.len() == 1 { "" } else { "s" }
+    )
 }
 
 /// Frames quieter than this many decibels below the loud frames (the 95th percentile of the

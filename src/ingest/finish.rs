@@ -111,5 +111,6 @@ pub(crate) fn finish(
         },
         warnings: raw.warnings,
         chroma: raw.chroma,
+        unsure_spans: raw.unsure_spans,
     })
 }

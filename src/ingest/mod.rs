@@ -241,6 +241,8 @@ pub(crate) struct RawPiece {
     pub warnings: Vec<String>,
     /// The measured harmony layer (audio only).
     pub chroma: Option<crate::timeline::ChromaLayer>,
+    /// Where the melody extractor was unsure, seconds (audio only).
+    pub unsure_spans: Vec<[f64; 2]>,
 }
 
 /// A bar as a reader finds it.

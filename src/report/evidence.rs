@@ -61,6 +61,8 @@ pub struct SyncContext {
     pub bars_from_score: bool,
     /// Path cost over average cost.
     pub cost_ratio: String,
+    /// Share of the recording's melody notes agreeing with the score's, percent.
+    pub agreement: String,
     /// Recording relative to score.
     pub transposition: String,
     /// First and last bar placed.
@@ -146,6 +148,7 @@ pub fn sync_context(summary: Option<&SyncSummary>) -> Option<SyncContext> {
         follows: s.follows,
         bars_from_score: s.bars_from_score,
         cost_ratio: trim_number(s.cost_ratio, 2),
+        agreement: trim_number(100.0 * s.melody_agreement, 0),
         transposition: crate::compare::describe_transposition(s.transposition_semitones),
         first_bar: first.map_or_else(String::new, |b| b.label.clone()),
         last_bar: last.map_or_else(String::new, |b| b.label.clone()),

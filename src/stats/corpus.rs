@@ -284,6 +284,7 @@ impl MelodyEntry {
             },
             warnings: Vec::new(),
             chroma: None,
+            unsure_spans: Vec::new(),
         }
     }
 }

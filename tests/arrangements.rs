@@ -132,3 +132,96 @@ fn compare_puts_the_scores_bars_onto_a_recording_of_it() {
         }
     }
 }
+
+fn compare_json(a: &str, b: &str) -> Value {
+    let (a, b) = (fixture(a), fixture(b));
+    let out = common::run_collatio(&[
+        "compare",
+        a.to_str().unwrap(),
+        b.to_str().unwrap(),
+        "--format",
+        "json",
+    ]);
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+fn number(v: &Value) -> f64 {
+    v.as_f64().unwrap()
+}
+
+#[test]
+fn the_same_melody_in_two_arranged_recordings_is_found_with_its_bars() {
+    // Both recordings are full arrangements: the melody comes from the predominant-melody
+    // extractor. larkfield bars 5–12 = cinderpath bars 9–16, up a minor third, 1.2 times
+    // faster (fixtures README).
+    let record = compare_json("larkfield.ogg", "cinderpath_rearranged.ogg");
+    let lark = bar_starts("larkfield");
+    let cinder = bar_starts("cinderpath_rearranged");
+    let best = &record["passages"][0];
+    assert_eq!(
+        best["transposition_semitones"]
+            .as_i64()
+            .unwrap()
+            .rem_euclid(12),
+        3
+    );
+    assert!((number(&best["tempo_ratio"]) - 1.2).abs() < 0.05, "{best}");
+    // Starts within a quarter note (0.6 s and 0.5 s) of the first shared bar.
+    assert!(
+        (number(&best["a"]["onset_seconds"]) - lark[4]).abs() < 0.6,
+        "{best}"
+    );
+    assert!(
+        (number(&best["b"]["onset_seconds"]) - cinder[8]).abs() < 0.5,
+        "{best}"
+    );
+    // Ends within the last shared bar.
+    assert!(number(&best["a"]["end_seconds"]) > lark[11], "{best}");
+    assert!(number(&best["a"]["end_seconds"]) < lark[12] + 2.4, "{best}");
+    assert!(number(&best["b"]["end_seconds"]) > cinder[15], "{best}");
+    assert!(
+        number(&best["b"]["end_seconds"]) < cinder[16] + 2.0,
+        "{best}"
+    );
+    assert!(number(&best["significance"]["e_value"]) < 0.01, "{best}");
+    let evidence: Vec<&str> = best["evidence"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|e| e.as_str().unwrap())
+        .collect();
+    assert_eq!(evidence, ["melody", "harmony"]);
+    // The detail says the melody came from a mix.
+    assert!(record["a"]["source"]["detail"]
+        .as_str()
+        .unwrap()
+        .contains("predominant melody of a mix"));
+}
+
+#[test]
+fn a_score_against_another_arrangements_recording_reports_the_scores_bars() {
+    let record = compare_json("larkfield.musicxml", "cinderpath_rearranged.ogg");
+    // Another piece: it must not take the score's bars.
+    assert_eq!(record["synchronisation"]["follows"], false);
+    let best = &record["passages"][0];
+    assert_eq!(best["a"]["bars"][0], "5");
+    let cinder = bar_starts("cinderpath_rearranged");
+    assert!(
+        (number(&best["b"]["onset_seconds"]) - cinder[8]).abs() < 0.5,
+        "{best}"
+    );
+    assert!(number(&best["significance"]["e_value"]) < 0.01, "{best}");
+}
+
+#[test]
+fn unrelated_arranged_recordings_share_no_significant_melody() {
+    for other in ["glimmerfen.ogg", "weirmoor.ogg", "tidewrack.ogg"] {
+        let record = compare_json("larkfield.ogg", other);
+        for p in record["passages"].as_array().unwrap() {
+            let e = p["significance"]["e_value"]
+                .as_f64()
+                .unwrap_or(f64::INFINITY);
+            assert!(e > 0.01, "larkfield / {other}: {p}");
+        }
+    }
+}
