@@ -161,27 +161,27 @@ pub fn compare_harmony(
     let step = coarse_enough(a, b, params);
     let fa = ChromaFeatures::from_layer(a, step, params.window.max(step));
     let fb = ChromaFeatures::from_layer(b, step, params.window.max(step));
-    let mut best: Option<HarmonicComparison> = None;
+    // The candidate index whose plot holds the higher Qmax; only that one is tested
+    // against the shuffles.
+    let m = params.embedding.max(1);
+    let tau = params.delay.max(1);
+    let span = (m - 1) * tau;
+    let mut chosen: Option<(i32, f32)> = None;
     for (index, _) in transposition_ranking(&fa, &fb)
         .into_iter()
         .take(TRANSPOSITIONS_TRIED)
     {
-        let result = compare_at(&fa, &fb, index, params);
-        let better = match &best {
-            None => true,
-            Some(current) => strength(&result) > strength(current),
+        let value = if fa.len() > span + 1 && fb.len() > span + 1 {
+            let plot = recurrence_plot(&fa, &fb.rotated(index), m, tau, params);
+            qmax_kernel(&plot.cells, None, plot.rows, plot.cols, params, None).map_or(0.0, |b| b.1)
+        } else {
+            0.0
         };
-        if better {
-            best = Some(result);
+        if chosen.is_none_or(|(_, v)| value > v) {
+            chosen = Some((index, value));
         }
     }
-    best.unwrap_or(HarmonicComparison {
-        transposition_semitones: 0,
-        frame_seconds: fa.hop_seconds,
-        recurrence_rate: 0.0,
-        null_max: 0.0,
-        matches: Vec::new(),
-    })
+    compare_at(&fa, &fb, chosen.map_or(0, |c| c.0), params)
 }
 
 /// The step that keeps the plot under `max_cells`.
@@ -191,10 +191,6 @@ fn coarse_enough(a: &ChromaLayer, b: &ChromaLayer, params: &HarmonyParams) -> us
         step *= 2;
     }
     step
-}
-
-fn strength(result: &HarmonicComparison) -> f32 {
-    result.matches.first().map_or(0.0, |m| m.score)
 }
 
 fn compare_at(
@@ -371,23 +367,78 @@ struct QResult {
 
 /// The Qmax matrix, with closed cells treated as non-recurrent and reset to 0.
 fn qmax(plot: &Plot, blocked: &[bool], params: &HarmonyParams) -> QResult {
-    let (rows, cols) = (plot.rows, plot.cols);
-    let mut q = vec![0f32; rows * cols];
+    let open: Vec<bool> = plot
+        .cells
+        .iter()
+        .zip(blocked)
+        .map(|(c, b)| *c && !*b)
+        .collect();
+    let mut values = vec![0f32; plot.rows * plot.cols];
+    let best = qmax_kernel(
+        &open,
+        Some(blocked),
+        plot.rows,
+        plot.cols,
+        params,
+        Some(&mut values),
+    );
+    QResult { values, best }
+}
+
+/// The Qmax recursion over a plot given as recurrent flags (`rows × cols`, row-major), with
+/// `closed` cells held at 0; returns the best cell and value, and fills `values` when given.
+/// Three rolling rows padded with two zero columns in front: a missing predecessor then acts
+/// as a non-recurrent cell of value 0, which is what the recursion's `max(0, …)` gives it.
+fn qmax_kernel(
+    recurrent: &[bool],
+    closed: Option<&[bool]>,
+    rows: usize,
+    cols: usize,
+    params: &HarmonyParams,
+    mut values: Option<&mut Vec<f32>>,
+) -> Option<((usize, usize), f32)> {
+    let (go, ge) = (params.gap_onset, params.gap_extension);
+    let width = cols + 2;
+    let mut q = [vec![0f32; width], vec![0f32; width], vec![0f32; width]];
+    // Gap penalty of leaving each cell of the two previous rows (γo after a recurrence).
+    let mut g = [vec![ge; width], vec![ge; width], vec![ge; width]];
     let mut best: Option<((usize, usize), f32)> = None;
+    let mut best_value = 0f32;
     for i in 0..rows {
-        for j in 0..cols {
-            let c = i * cols + j;
-            if blocked[c] {
-                continue;
-            }
-            let value = cell_value(plot, blocked, &q, i, j, params);
-            q[c] = value;
-            if value > best.map_or(0.0, |b| b.1) {
-                best = Some(((i, j), value));
+        let (cur, prev, prev2) = (i % 3, (i + 2) % 3, (i + 1) % 3);
+        let row = &recurrent[i * cols..(i + 1) * cols];
+        let shut = closed.map(|c| &c[i * cols..(i + 1) * cols]);
+        let mut q_cur = std::mem::take(&mut q[cur]);
+        let mut g_cur = std::mem::take(&mut g[cur]);
+        {
+            let (q1, q2, g1, g2) = (&q[prev], &q[prev2], &g[prev], &g[prev2]);
+            for j in 0..cols {
+                let k = j + 2;
+                let value = if shut.is_some_and(|s| s[j]) {
+                    0.0
+                } else if row[j] {
+                    q1[k - 1].max(q2[k - 1]).max(q1[k - 2]) + 1.0
+                } else {
+                    (q1[k - 1] - g1[k - 1])
+                        .max(q2[k - 1] - g2[k - 1])
+                        .max(q1[k - 2] - g1[k - 2])
+                        .max(0.0)
+                };
+                q_cur[k] = value;
+                g_cur[k] = if row[j] { go } else { ge };
+                if value > best_value {
+                    best_value = value;
+                    best = Some(((i, j), value));
+                }
             }
         }
+        if let Some(v) = values.as_deref_mut() {
+            v[i * cols..(i + 1) * cols].copy_from_slice(&q_cur[2..]);
+        }
+        q[cur] = q_cur;
+        g[cur] = g_cur;
     }
-    QResult { values: q, best }
+    best
 }
 
 /// The predecessors of a cell: diagonal, two rows back, two columns back.
@@ -401,35 +452,6 @@ fn predecessors(i: usize, j: usize) -> [Option<(usize, usize)>; 3] {
 
 fn recurrent(plot: &Plot, blocked: &[bool], i: usize, j: usize) -> bool {
     !blocked[i * plot.cols + j] && plot.at(i, j)
-}
-
-fn cell_value(
-    plot: &Plot,
-    blocked: &[bool],
-    q: &[f32],
-    i: usize,
-    j: usize,
-    params: &HarmonyParams,
-) -> f32 {
-    let cols = plot.cols;
-    if recurrent(plot, blocked, i, j) {
-        let mut best = 0f32;
-        for (pi, pj) in predecessors(i, j).into_iter().flatten() {
-            best = best.max(q[pi * cols + pj]);
-        }
-        best + 1.0
-    } else {
-        let mut best = 0f32;
-        for (pi, pj) in predecessors(i, j).into_iter().flatten() {
-            let gap = if recurrent(plot, blocked, pi, pj) {
-                params.gap_onset
-            } else {
-                params.gap_extension
-            };
-            best = best.max(q[pi * cols + pj] - gap);
-        }
-        best
-    }
 }
 
 /// The path ending at `end`, followed back through the predecessor that produced each value
@@ -490,8 +512,8 @@ fn null_maxima(plot: &Plot, params: &HarmonyParams) -> Vec<f32> {
     let block = params.block.max(1);
     let n_blocks = plot.cols.div_ceil(block);
     let mut rng = ChaCha8Rng::seed_from_u64(params.seed);
-    let no_blocks = vec![false; plot.rows * plot.cols];
     let mut order: Vec<usize> = (0..n_blocks).collect();
+    let mut shuffled = vec![false; plot.cells.len()];
     (0..params.shuffles)
         .map(|_| {
             order.shuffle(&mut rng);
@@ -499,18 +521,14 @@ fn null_maxima(plot: &Plot, params: &HarmonyParams) -> Vec<f32> {
                 .iter()
                 .flat_map(|b| (b * block)..((b + 1) * block).min(plot.cols))
                 .collect();
-            let mut cells = Vec::with_capacity(plot.cells.len());
             for i in 0..plot.rows {
-                cells.extend(columns.iter().map(|&j| plot.at(i, j)));
+                let from = &plot.cells[i * plot.cols..(i + 1) * plot.cols];
+                let to = &mut shuffled[i * plot.cols..(i + 1) * plot.cols];
+                for (t, &j) in to.iter_mut().zip(&columns) {
+                    *t = from[j];
+                }
             }
-            let shuffled = Plot {
-                rows: plot.rows,
-                cols: plot.cols,
-                cells,
-            };
-            qmax(&shuffled, &no_blocks, params)
-                .best
-                .map_or(0.0, |b| b.1)
+            qmax_kernel(&shuffled, None, plot.rows, plot.cols, params, None).map_or(0.0, |b| b.1)
         })
         .collect()
 }
