@@ -374,6 +374,8 @@ pub struct WorkContext {
     pub warnings: Vec<String>,
     /// Bar ranges outside every passage, as text.
     pub uncovered: String,
+    /// Where a recording's melody extractor was unsure, as text; empty when nowhere.
+    pub unsure: String,
 }
 
 fn work_context(
@@ -446,10 +448,41 @@ fn work_context(
         unfolded: piece.repeats_unfolded,
         warnings: piece.warnings.clone(),
         uncovered: uncovered_bars(piece, ranges),
+        unsure: unsure_text(piece),
     }
 }
 
 /// Bar ranges of the work whose melody notes lie in no passage, e.g. `bars 0–8, 17–24`.
+/// The unsure spans of a recording's transcription: each span as seconds with its bar, at most
+/// twelve listed, then how many more and their total length.
+fn unsure_text(piece: &Piece) -> String {
+    const LISTED: usize = 12;
+    let spans = &piece.unsure_spans;
+    if spans.is_empty() {
+        return String::new();
+    }
+    let mut parts: Vec<String> = spans
+        .iter()
+        .take(LISTED)
+        .map(|[a, b]| {
+            let bar = piece
+                .bars
+                .get(piece.bar_at_seconds(*a))
+                .map_or_else(String::new, |b| format!(" (bar {})", b.label));
+            format!("{}–{} s{bar}", trim_number(*a, 1), trim_number(*b, 1))
+        })
+        .collect();
+    if spans.len() > LISTED {
+        parts.push(format!("and {} more", spans.len() - LISTED));
+    }
+    let total: f64 = spans.iter().map(|[a, b]| b - a).sum();
+    format!(
+        "{} ({} s in all); notes there may be wrong",
+        parts.join(", "),
+        trim_number(total, 1)
+    )
+}
+
 fn uncovered_bars(piece: &Piece, ranges: &[[usize; 2]]) -> String {
     let mut covered = vec![false; piece.melody.len()];
     for r in ranges {
