@@ -212,6 +212,40 @@ pub fn chroma_stft(
     }
 }
 
+/// Beat-synchronous chroma: the mean of the frames between consecutive beats (Bartsch &
+/// Wakefield 2005; Ellis & Poliner 2007 use it for cover songs). Segment boundaries are frame
+/// 0, the frame of every beat (`floor(t / hop_seconds)`, clipped to the frames) and the end,
+/// duplicates removed, as librosa's `util.sync(..., aggregate=mean, pad=True)` takes them; one
+/// output row per segment.
+pub fn beat_synchronous(frames: &[[f32; 12]], hop_seconds: f64, beats: &[f64]) -> Vec<[f32; 12]> {
+    let n = frames.len();
+    if n == 0 || hop_seconds <= 0.0 {
+        return Vec::new();
+    }
+    let mut bounds: Vec<usize> = vec![0, n];
+    bounds.extend(
+        beats
+            .iter()
+            .filter(|t| t.is_finite())
+            .map(|t| ((t / hop_seconds).floor().max(0.0) as usize).min(n)),
+    );
+    bounds.sort_unstable();
+    bounds.dedup();
+    bounds
+        .windows(2)
+        .map(|w| {
+            let mut mean = [0f32; 12];
+            for frame in &frames[w[0]..w[1]] {
+                for (m, v) in mean.iter_mut().zip(frame) {
+                    *m += *v;
+                }
+            }
+            let count = (w[1] - w[0]) as f32;
+            mean.map(|m| m / count)
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
