@@ -225,3 +225,69 @@ fn unrelated_arranged_recordings_share_no_significant_melody() {
         }
     }
 }
+
+#[test]
+fn every_pairing_of_score_midi_and_recording_finds_the_piece() {
+    // The same arrangement as MusicXML, as MIDI and as its render slowed by SoX `tempo 0.8`:
+    // every pairing shares one passage covering nearly all of the melody (63 notes).
+    let pairs = [
+        ("larkfield.musicxml", "larkfield.mid"),
+        ("larkfield.mid", "larkfield_tempo0.8.ogg"),
+        ("larkfield.musicxml", "larkfield_pitch-300.ogg"),
+        ("larkfield.ogg", "larkfield_tempo0.8.ogg"),
+        ("larkfield_pitch+200.ogg", "larkfield_tempo1.25.ogg"),
+    ];
+    for (a, b) in pairs {
+        let record = compare_json(a, b);
+        let best = &record["passages"][0];
+        let notes = best["a"]["notes"].as_u64().unwrap();
+        assert!(notes >= 50, "{a} / {b}: {best}");
+        assert!(number(&best["pmi"]) >= 85.0, "{a} / {b}: {best}");
+        // (No E-value check here: the null model's k-let shuffles keep runs of four pitches,
+        // so for two copies of one melody they rebuild much of it and the E-value is
+        // conservative, about 0.02; docs/statistics.md.)
+        // Key and tempo differences between the two are measured, not penalised.
+        let expected_shift = |name: &str| {
+            if name.contains("pitch-300") {
+                -3
+            } else if name.contains("pitch+200") {
+                2
+            } else {
+                0
+            }
+        };
+        let shift = expected_shift(b) - expected_shift(a);
+        assert_eq!(
+            best["transposition_semitones"]
+                .as_i64()
+                .unwrap()
+                .rem_euclid(12),
+            i64::from(shift).rem_euclid(12),
+            "{a} / {b}"
+        );
+        let factor = |name: &str| {
+            if name.contains("tempo0.8") {
+                0.8
+            } else if name.contains("tempo1.25") {
+                1.25
+            } else {
+                1.0
+            }
+        };
+        let tempo = factor(b) / factor(a);
+        assert!(
+            (number(&best["tempo_ratio"]) - tempo).abs() < 0.03,
+            "{a} / {b}: tempo {}",
+            best["tempo_ratio"]
+        );
+        // The harmony confirms it.
+        assert!(
+            best["evidence"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|e| e == "harmony"),
+            "{a} / {b}: {best}"
+        );
+    }
+}
