@@ -123,3 +123,55 @@ fn a_recording_of_another_piece_does_not_follow_the_score() {
     eprintln!("unrelated: cost ratio {}", sync.cost_ratio);
     assert!(!sync.follows, "cost ratio {}", sync.cost_ratio);
 }
+
+#[test]
+fn a_recording_of_part_of_the_score_is_placed_where_it_belongs() {
+    // The subsequence form: 20 s from the middle of the larkfield render (10–30 s, bars 5 to
+    // 13 of 16) against the whole score.
+    let score = read("larkfield.musicxml");
+    let mut options = ReadOptions::default();
+    options.audio.decode.from = Some(10.0);
+    options.audio.decode.to = Some(30.0);
+    let excerpt = read_file(&fixture("larkfield.ogg"), &options).unwrap();
+    let sync = synchronise(
+        &chroma_of(&score),
+        &chroma_of(&excerpt),
+        &SyncParams::default(),
+    )
+    .unwrap();
+    assert!(sync.follows, "cost ratio {}", sync.cost_ratio);
+    let truth = truth("larkfield");
+    let starts: Vec<f64> = truth["bar_starts"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect();
+    let mut checked = 0;
+    for (bar, expected) in score.bars.iter().zip(&starts) {
+        // Bars starting well inside the excerpt; times are seconds of the excerpt.
+        if *expected < 10.5 || *expected > 29.5 {
+            continue;
+        }
+        let mapped = sync.recording_time(bar.start_seconds.0).unwrap();
+        assert!(
+            (mapped - (expected - 10.0)).abs() <= TOLERANCE,
+            "bar {}: {mapped} vs {}",
+            bar.label,
+            expected - 10.0
+        );
+        checked += 1;
+    }
+    assert!(checked >= 7, "{checked} bars checked");
+    // The span of the score covered is about bars 5-13 (score seconds 9.6-28.8).
+    assert!(
+        (sync.score_span[0] - 9.5).abs() < 1.0,
+        "{:?}",
+        sync.score_span
+    );
+    assert!(
+        (sync.score_span[1] - 29.5).abs() < 1.0,
+        "{:?}",
+        sync.score_span
+    );
+}
