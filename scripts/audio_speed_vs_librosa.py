@@ -11,13 +11,17 @@ Measured:
 * collatio: `collatio inspect FILE --format json` (stdout discarded) on both files, one
   untimed warm-up run (page cache), then `--repeat` runs under `/usr/bin/time -v`; wall
   time is the median of those runs (measured here with perf_counter around the process),
-  peak memory is the largest "Maximum resident set size" among them.
+  CPU time the median of user + system seconds as /usr/bin/time reports them, peak memory
+  the largest "Maximum resident set size" among them.
 * librosa, in this process, on the 3-minute file: librosa.load(sr=22050, mono=True) +
   librosa.pyin(y, fmin=C2, fmax=C7, sr=22050) + librosa.feature.chroma_stft(y, sr) +
   librosa.beat.beat_track(y, sr). `import librosa` is excluded; one warm-up of the whole
   pipeline on the 10-second excerpt (numba JIT, resampler, FFT plans) is excluded; then up
   to `--repeat` timed runs, stopping after the first if it took more than 120 s (that
-  single run is then reported). Per-step times are printed too.
+  single run is then reported). Per-step times are printed too, and the process CPU time
+  (time.process_time, all threads) of each run.
+
+On a shared, loaded machine the CPU-time ratio is the fairer comparison; both are printed.
 
 Usage:
   .venv/bin/python scripts/audio_speed_vs_librosa.py [--collatio target/release/collatio]
@@ -90,10 +94,10 @@ def soxi_duration(p: Path) -> float:
                                 text=True).stdout.strip())
 
 
-def time_collatio(exe: str, path: Path, repeat: int) -> tuple[list[float], int]:
+def time_collatio(exe: str, path: Path, repeat: int) -> tuple[list[float], list[float], int]:
     cmd = [exe, "inspect", str(path), "--format", "json"]
     subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL)  # warm-up (page cache)
-    walls, rss = [], 0
+    walls, cpus, rss = [], [], 0
     for _ in range(repeat):
         t0 = time.perf_counter()
         r = subprocess.run(["/usr/bin/time", "-v", *cmd], stdout=subprocess.DEVNULL,
@@ -103,11 +107,15 @@ def time_collatio(exe: str, path: Path, repeat: int) -> tuple[list[float], int]:
             sys.exit(f"collatio failed on {path}:\n{r.stderr}")
         m = re.search(r"Maximum resident set size \(kbytes\): (\d+)", r.stderr)
         rss = max(rss, int(m.group(1)))
-    return walls, rss
+        user = re.search(r"User time \(seconds\): ([0-9.]+)", r.stderr)
+        system = re.search(r"System time \(seconds\): ([0-9.]+)", r.stderr)
+        cpus.append(float(user.group(1)) + float(system.group(1)))
+    return walls, cpus, rss
 
 
 def librosa_pipeline(librosa, path: Path) -> dict[str, float]:
     t = {}
+    c0 = time.process_time()
     t0 = time.perf_counter()
     y, sr = librosa.load(str(path), sr=SR, mono=True)
     t["load"] = time.perf_counter() - t0
@@ -121,6 +129,7 @@ def librosa_pipeline(librosa, path: Path) -> dict[str, float]:
     librosa.beat.beat_track(y=y, sr=sr)
     t["beat_track"] = time.perf_counter() - t1
     t["total"] = time.perf_counter() - t0
+    t["cpu"] = time.process_time() - c0
     return t
 
 
@@ -140,10 +149,11 @@ def main() -> None:
 
     res = {}
     for p in (f3, f10):
-        walls, rss = time_collatio(args.collatio, p, args.repeat)
-        res[p] = (statistics.median(walls), rss)
+        walls, cpus, rss = time_collatio(args.collatio, p, args.repeat)
+        res[p] = (statistics.median(walls), statistics.median(cpus), rss)
         print(f"collatio inspect {p.name} --format json: wall "
               f"{', '.join(f'{w:.3f}' for w in walls)} s -> median {statistics.median(walls):.3f} s;"
+              f" CPU (user + system) {', '.join(f'{c:.2f}' for c in cpus)} s;"
               f" peak RSS {rss} KiB ({rss / 1024:.1f} MiB)")
 
     import librosa  # noqa: E402  (import time excluded)
@@ -155,14 +165,16 @@ def main() -> None:
     for i in range(args.repeat):
         t = librosa_pipeline(librosa, f3)
         runs.append(t)
-        print(f"librosa run {i + 1} on {f3.name}: total {t['total']:.2f} s  ("
-              + ", ".join(f"{k} {v:.2f}" for k, v in t.items() if k != "total") + ")")
+        print(f"librosa run {i + 1} on {f3.name}: total {t['total']:.2f} s, CPU {t['cpu']:.2f} s  ("
+              + ", ".join(f"{k} {v:.2f}" for k, v in t.items() if k not in ("total", "cpu"))
+              + ")")
         if t["total"] > SLOW_RUN:
             print(f"  run took > {SLOW_RUN:.0f} s: reporting this single run")
             break
     lib = statistics.median(r["total"] for r in runs)
-    c3, rss3 = res[f3]
-    c10, rss10 = res[f10]
+    lib_cpu = statistics.median(r["cpu"] for r in runs)
+    c3, cpu3, rss3 = res[f3]
+    c10, cpu10, rss10 = res[f10]
 
     print()
     print("== summary ==")
@@ -171,7 +183,9 @@ def main() -> None:
     print(f"3-min file, collatio inspect --format json (median of {args.repeat}): {c3:.3f} s")
     print(f"3-min file, librosa load+pyin+chroma_stft+beat_track "
           f"({'median of ' + str(len(runs)) if len(runs) > 1 else 'single run'}): {lib:.2f} s")
-    print(f"speed ratio librosa / collatio: {lib / c3:.1f}x")
+    print(f"speed ratio librosa / collatio (wall): {lib / c3:.1f}x")
+    print(f"3-min file, CPU seconds (user + system): collatio {cpu3:.2f} s, librosa {lib_cpu:.2f} s;"
+          f" ratio {lib_cpu / max(cpu3, 1e-9):.1f}x; collatio {180.0 / max(cpu3, 1e-9):.0f}x real time")
     print(f"10-min file, collatio wall (median of {args.repeat}): {c10:.3f} s")
     print(f"10-min file, collatio peak RSS: {rss10} KiB ({rss10 / 1024:.1f} MiB)"
           f"  [3-min: {rss3 / 1024:.1f} MiB]")

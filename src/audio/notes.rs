@@ -16,6 +16,14 @@
 //!    it); a note after a gap, or one whose pitch shows no such emergence, starts at the
 //!    strongest onset-strength peak before its first voiced frame (an instrument's attack shows
 //!    in the spectrum before its pitch settles).
+//!    A legato note's start then moves further back over the frames in which the previous
+//!    note's periodicity is already disturbed: the probability of the previous pitch among the
+//!    candidates below 90% of its median over that note (a soft attack under the previous
+//!    note's release shows first as a loss of the old period, before its own period takes
+//!    over); when the disturbance reaches further back than `onset_lookback` frames (a decay,
+//!    not a new note) nothing moves. An attack-based start takes the strongest onset-strength
+//!    peak from `onset_lookback` frames before the first voiced frame to two frames after it,
+//!    and moves only when that peak comes before.
 //! 4. Repeated notes of one pitch with no silence between them are split at peaks of the onset
 //!    strength: a local maximum that exceeds the median of the note's onset strength by
 //!    `onset_ratio` times its median absolute deviation, the note's mean by 50%, and the whole
@@ -147,6 +155,14 @@ pub fn transcribe(
         min_frames,
         options.onset_lookback,
     );
+    let segments = extend_to_disturbance(
+        segments,
+        track,
+        &midi,
+        reference_hz,
+        min_frames,
+        options.onset_lookback,
+    );
     // The onset strength also places legato notes whose pitch shows no earlier emergence.
     let use_attack: Vec<bool> = segments
         .iter()
@@ -261,6 +277,74 @@ fn extend_to_emergence(
     segments
 }
 
+/// Share of a note's typical periodicity below which a frame counts as disturbed by the next
+/// note.
+const DISTURBANCE_RATIO: f64 = 0.9;
+
+/// Least median probability of a note's own pitch for its disturbance to be measured (below
+/// it, the note's periodicity is too weak to tell a disturbance from its usual flutter).
+const MIN_TYPICAL_PROBABILITY: f64 = 0.3;
+
+/// Probability mass of the frame's candidates within 50 cents of `target` (fractional MIDI).
+fn pitch_probability(track: &PitchTrack, k: usize, target: f64, reference_hz: f64) -> f64 {
+    track.candidates.get(k).map_or(0.0, |frame| {
+        frame
+            .iter()
+            .filter(|(f, _)| {
+                *f > 0.0 && (super::midi_of_hz(f64::from(*f), reference_hz) - target).abs() < 0.5
+            })
+            .map(|(_, p)| f64::from(*p))
+            .sum()
+    })
+}
+
+/// Moves the start of a note that follows another without a gap back over the frames (at
+/// most `lookback`) in which the previous note's periodicity is already disturbed: the
+/// probability of its pitch below [`DISTURBANCE_RATIO`] of its median over that note. A new
+/// note disturbs the old one's period as soon as it sounds, before its own period dominates
+/// the analysis window (a soft attack under a ringing release). When the disturbance reaches
+/// further back than `lookback` (a slow decay rather than a new note), nothing moves.
+fn extend_to_disturbance(
+    mut segments: Vec<(usize, usize)>,
+    track: &PitchTrack,
+    midi: &[Option<f64>],
+    reference_hz: f64,
+    min_frames: usize,
+    lookback: usize,
+) -> Vec<(usize, usize)> {
+    for i in 1..segments.len() {
+        let (a, b) = segments[i];
+        let (pa, pb) = segments[i - 1];
+        if pb != a || b - a < min_frames || a - pa < 2 * min_frames {
+            continue;
+        }
+        let mut pitches: Vec<f64> = midi[pa..pb].iter().flatten().copied().collect();
+        let previous = median(&mut pitches);
+        let mut own: Vec<f64> = (pa..pb)
+            .map(|k| pitch_probability(track, k, previous, reference_hz))
+            .collect();
+        let typical = median(&mut own);
+        if typical < MIN_TYPICAL_PROBABILITY {
+            continue;
+        }
+        let disturbed = |k: usize| {
+            pitch_probability(track, k, previous, reference_hz) < DISTURBANCE_RATIO * typical
+        };
+        let bound = a.saturating_sub(lookback);
+        let earliest = (pa + min_frames).max(bound);
+        let mut start = a;
+        while start > earliest && disturbed(start - 1) {
+            start -= 1;
+        }
+        let runs_further = start == bound && start > 0 && disturbed(start - 1);
+        if start < a && !runs_further {
+            segments[i] = (start, b);
+            segments[i - 1] = (pa, start);
+        }
+    }
+    segments
+}
+
 /// Moves each note's start back to the strongest onset-strength peak among the `lookback`
 /// frames before it (an instrument's attack shows in the spectrum before its pitch settles),
 /// when that peak stands above the envelope's median; the previous note then ends there.
@@ -287,9 +371,11 @@ fn refine_onsets(
             Some(p) => (segments[p].0 + min_frames).max(a.saturating_sub(lookback)),
             None => a.saturating_sub(lookback),
         };
+        // The strongest peak from `earliest` to two frames into the note: an attack that
+        // peaks at or just after the first voiced frame keeps the start where it is.
         let mut best = a;
         let mut best_value = value(a);
-        for k in earliest..a {
+        for k in earliest..(a + 3).min(b) {
             let v = value(k);
             let peak = v >= value(k.wrapping_sub(1)) && v >= value(k + 1);
             if peak && v > best_value && v > 2.0 * floor {
@@ -297,6 +383,7 @@ fn refine_onsets(
                 best_value = v;
             }
         }
+        let best = best.min(a);
         if best < a {
             segments[i] = (best, b);
             if let Some(p) = i.checked_sub(1) {
@@ -460,6 +547,36 @@ mod tests {
         assert_eq!(got, vec![(60, 10), (62, 9), (64, 8)]);
         assert!((notes[0].cents - 10.0).abs() < 1e-6);
         assert!(notes.iter().all(|n| n.confidence < 1.0));
+    }
+
+    #[test]
+    fn a_legato_onset_starts_where_the_old_period_is_disturbed() {
+        // 12 frames of E4 (64), then G4 (67). The old pitch's candidate weakens from frame 12
+        // (0.87 → 0.7 → 0.3), while the voiced track switches only at frame 14.
+        let mut p = vec![Some(64.0); 14];
+        p.extend(vec![Some(67.0); 12]);
+        let mut t = track(&p);
+        let hz = |m: f64| super::super::hz_of_midi(m, 440.0) as f32;
+        t.candidates = (0..p.len())
+            .map(|k| match k {
+                0..=11 => vec![(hz(64.0), 0.87)],
+                12 => vec![(hz(64.0), 0.7)],
+                13 => vec![(hz(64.0), 0.3), (hz(40.0), 0.4)],
+                _ => vec![(hz(67.0), 0.87)],
+            })
+            .collect();
+        let notes = transcribe(&t, &[], 440.0, &NoteOptions::default());
+        let starts: Vec<(i32, usize)> = notes.iter().map(|n| (n.rounded, n.first_frame)).collect();
+        assert_eq!(starts, vec![(64, 0), (67, 12)]);
+        // A slow decay (disturbed for longer than the lookback of 4 frames) moves nothing.
+        for (c, p) in t.candidates[9..14]
+            .iter_mut()
+            .zip([0.7, 0.65, 0.6, 0.55, 0.3])
+        {
+            c[0].1 = p;
+        }
+        let notes = transcribe(&t, &[], 440.0, &NoteOptions::default());
+        assert_eq!(notes[1].first_frame, 14);
     }
 
     #[test]

@@ -1,11 +1,16 @@
 //! Monophonic f0 estimation: YIN and probabilistic YIN (pYIN).
 //!
-//! **YIN** (de Cheveigné & Kawahara 2002, *JASA* 111(4)). For an analysis window of `W`
-//! samples starting at `t`, the difference function (their equation 6)
-//! `d_t(τ) = Σ_{j=t}^{t+W−1} (x_j − x_{j+τ})²` is computed for all lags at once through its
-//! expansion (equation 7) `d_t(τ) = r_t(0) + r_{t+τ}(0) − 2 r_t(τ)`, where the energies `r(0)`
-//! come from a running sum and the cross-correlation `r_t(τ)` from one real FFT of the window,
-//! one of the whole frame and one inverse FFT (size: the power of two ≥ `W + τ_max`, so no
+//! **YIN** (de Cheveigné & Kawahara 2002, *JASA* 111(4)). Frame `k` holds the `L` samples
+//! centred on its time (`k · hop`; `L` = `frame_length`, 1690 by default). The difference
+//! function `d(τ) = L/(L−τ) · Σ_{j=0}^{L−1−τ} (x_j − x_{j+τ})²` takes every pair of samples
+//! `τ` apart within the frame — the integration window shrinks with the lag, as in the
+//! autocorrelation of the paper's equation 2 (and librosa 0.11's `yin`), so that the pairs
+//! compared are centred on the frame's time at every lag — and scales the sum by the number of
+//! pairs, so that it does not fall with the lag by itself (for white noise `d′` stays near 1
+//! instead of dipping at the longest lag, which would voice noise at `fmin`). It is computed for all lags at once
+//! through the expansion `d(τ) = Σ_{j<L−τ} x_j² + Σ_{j≥τ} x_j² − 2 r(τ)` (equation 7 for this
+//! window), the energies from a running sum and the autocorrelation `r(τ)` from one real FFT
+//! and one inverse FFT of `|X|²` (size: the power of two ≥ `L + τ_max`, 2048 by default, so no
 //! circular wrap-around reaches the lags used). The cumulative mean normalised difference
 //! (equation 8) is `d′(0) = 1`, `d′(τ) = d(τ) / ((1/τ) Σ_{j=1}^{τ} d(j))`. Plain YIN takes the
 //! first dip of `d′` below an absolute threshold (step 4, 0.1 by default), refines it by
@@ -26,9 +31,10 @@
 //! `pyin`.
 //!
 //! # Deviations
-//! - The analysis window of frame `k` is centred on the frame's time (`k · hop` samples), so
-//!   an f0 is reported where it is measured; librosa starts the window at the frame centre
-//!   minus `frame_length / 2`.
+//! - The frame is 1690 samples (≈ 77 ms) rather than librosa's 2048, so that one FFT of 2048
+//!   points serves; the frame is centred as librosa's is. The difference function is scaled
+//!   per pair (above), where librosa's expansion instead keeps the energy of the last `τ`
+//!   samples.
 //! - A dip's depth, compared with the thresholds, is the vertex of the parabola through it and
 //!   its neighbours rather than the sampled value: at short periods (a C7 is 10.5 samples at
 //!   22,050 Hz) the sampled lags miss the true minimum of `d′` by up to half a sample and YIN
@@ -40,7 +46,11 @@
 //! - Frames below an RMS floor (`min_rms`, −80 dBFS) and frames with a flat `d′` get no
 //!   candidates, so digital silence is unvoiced.
 //! - Viterbi runs in the log domain over the banded transition matrix; voiced states whose
-//!   observation probability is zero are never on a path and are skipped.
+//!   observation probability is zero are never on a path and are skipped. The unvoiced
+//!   targets, which all share one observation, take the better of the stay and switch source
+//!   per bin and then one banded max-plus convolution with the (concave) log triangular
+//!   weights; its maximisers are monotone, so a divide and conquer over the targets finds them
+//!   exactly in `O(n log n)` rather than `O(n · band)` per frame.
 
 use realfft::num_complex::Complex;
 use realfft::{ComplexToReal, RealFftPlanner, RealToComplex};
@@ -54,10 +64,10 @@ pub struct PyinOptions {
     pub fmin: f64,
     /// Highest f0 in Hz. Default 2217.461 (C♯7, a semitone above C7).
     pub fmax: f64,
-    /// Length `W` of the YIN integration window in samples. Default 1689 (≈ 77 ms at
-    /// 22,050 Hz): with the longest lag for the default `fmin` (358 samples) the analysed span
-    /// is 2048 samples (≈ 93 ms), the frame length librosa's pyin uses.
-    pub win_length: usize,
+    /// Length `L` of the frame analysed by YIN, in samples, centred on the frame's time.
+    /// Default 1690 (≈ 77 ms at 22,050 Hz): with the longest lag for the default `fmin`
+    /// (358 samples) one FFT of 2048 points gives the autocorrelation without wrap-around.
+    pub frame_length: usize,
     /// Number of thresholds of the prior. Default 100.
     pub n_thresholds: usize,
     /// Beta prior shape parameters (integers). Default (2, 18): mean threshold 0.1.
@@ -83,7 +93,7 @@ impl Default for PyinOptions {
         PyinOptions {
             fmin: 61.735,
             fmax: 2217.461,
-            win_length: 1689,
+            frame_length: 1690,
             n_thresholds: 100,
             beta: (2, 18),
             boltzmann: 2.0,
@@ -127,68 +137,67 @@ impl PitchTrack {
 }
 
 /// The YIN front end: computes the cumulative mean normalised difference of one frame with a
-/// reusable FFT plan.
+/// reusable FFT plan (see the module docs for the form of the difference function).
 pub struct Yin {
-    win_length: usize,
+    frame_length: usize,
     max_lag: usize,
     size: usize,
     forward: Arc<dyn RealToComplex<f32>>,
     inverse: Arc<dyn ComplexToReal<f32>>,
-    buf_window: Vec<f32>,
     buf_frame: Vec<f32>,
-    spec_window: Vec<Complex<f32>>,
     spec_frame: Vec<Complex<f32>>,
     scratch_fwd: Vec<Complex<f32>>,
     scratch_inv: Vec<Complex<f32>>,
     correlation: Vec<f32>,
+    prefix: Vec<f64>,
     difference: Vec<f64>,
 }
 
 impl std::fmt::Debug for Yin {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.debug_struct("Yin")
-            .field("win_length", &self.win_length)
+            .field("frame_length", &self.frame_length)
             .field("max_lag", &self.max_lag)
             .finish()
     }
 }
 
 impl Yin {
-    /// Plans for windows of `win_length` samples and lags `0 ..= max_lag`.
-    pub fn new(win_length: usize, max_lag: usize) -> Yin {
-        let win_length = win_length.max(2);
+    /// Plans for frames of `frame_length` samples and lags `0 ..= max_lag` (the FFT size is
+    /// the power of two ≥ `frame_length + max_lag`, so the circular correlation equals the
+    /// linear one at every lag used).
+    pub fn new(frame_length: usize, max_lag: usize) -> Yin {
         let max_lag = max_lag.max(2);
-        let size = (win_length + max_lag + 1).next_power_of_two();
+        let frame_length = frame_length.max(max_lag + 2);
+        let size = (frame_length + max_lag).next_power_of_two();
         let mut planner = RealFftPlanner::<f32>::new();
         let forward = planner.plan_fft_forward(size);
         let inverse = planner.plan_fft_inverse(size);
         Yin {
-            win_length,
+            frame_length,
             max_lag,
             size,
-            buf_window: forward.make_input_vec(),
             buf_frame: forward.make_input_vec(),
-            spec_window: forward.make_output_vec(),
             spec_frame: forward.make_output_vec(),
             scratch_fwd: forward.make_scratch_vec(),
             scratch_inv: inverse.make_scratch_vec(),
             correlation: inverse.make_output_vec(),
+            prefix: Vec::with_capacity(frame_length + 1),
             difference: vec![0.0; max_lag + 1],
             forward,
             inverse,
         }
     }
 
-    /// Samples a frame must hold: `win_length + max_lag`.
+    /// Samples a frame holds.
     pub fn frame_length(&self) -> usize {
-        self.win_length + self.max_lag
+        self.frame_length
     }
 
     /// Cumulative mean normalised difference `d′(τ)`, τ = 0 ..= max_lag, of `frame`
-    /// (at least [`Yin::frame_length`] samples; shorter frames are zero-padded), into `out`.
+    /// ([`Yin::frame_length`] samples; shorter frames are zero-padded), into `out`.
     pub fn cmndf(&mut self, frame: &[f32], out: &mut Vec<f64>) {
-        let (w, max_lag, size) = (self.win_length, self.max_lag, self.size);
-        let len = w + max_lag;
+        let (len, max_lag, size) = (self.frame_length, self.max_lag, self.size);
         for (i, slot) in self.buf_frame.iter_mut().enumerate() {
             *slot = if i < len {
                 frame.get(i).copied().unwrap_or(0.0)
@@ -196,26 +205,15 @@ impl Yin {
                 0.0
             };
         }
-        for (i, slot) in self.buf_window.iter_mut().enumerate() {
-            *slot = if i < w { self.buf_frame[i] } else { 0.0 };
-        }
         // Energies as prefix sums of squares (f64 to keep the differences exact enough).
-        let mut prefix = Vec::with_capacity(len + 1);
-        prefix.push(0.0f64);
+        self.prefix.clear();
+        self.prefix.push(0.0f64);
         let mut acc = 0.0f64;
         for &x in &self.buf_frame[..len] {
             acc += f64::from(x) * f64::from(x);
-            prefix.push(acc);
+            self.prefix.push(acc);
         }
         let ok_a = self
-            .forward
-            .process_with_scratch(
-                &mut self.buf_window,
-                &mut self.spec_window,
-                &mut self.scratch_fwd,
-            )
-            .is_ok();
-        let ok_b = self
             .forward
             .process_with_scratch(
                 &mut self.buf_frame,
@@ -223,16 +221,9 @@ impl Yin {
                 &mut self.scratch_fwd,
             )
             .is_ok();
-        // r(τ) = Σ_j a_j b_{j+τ}  ⇔  R = conj(A) · B.
-        for (b, a) in self.spec_frame.iter_mut().zip(&self.spec_window) {
-            *b *= a.conj();
-        }
-        // The DC and Nyquist bins of a real signal's spectrum are real.
-        if let Some(first) = self.spec_frame.first_mut() {
-            first.im = 0.0;
-        }
-        if let Some(last) = self.spec_frame.last_mut() {
-            last.im = 0.0;
+        // Autocorrelation r(τ) = Σ_j x_j x_{j+τ}  ⇔  R = |X|².
+        for b in self.spec_frame.iter_mut() {
+            *b = Complex::new(b.norm_sqr(), 0.0);
         }
         let ok_c = self
             .inverse
@@ -244,16 +235,19 @@ impl Yin {
             .is_ok();
         out.clear();
         out.resize(max_lag + 1, 1.0);
-        if !(ok_a && ok_b && ok_c) {
+        if !(ok_a && ok_c) {
             return;
         }
         let scale = 1.0 / size as f64;
-        let e0 = prefix[w];
-        for tau in 0..=max_lag {
-            let e_tau = prefix[tau + w] - prefix[tau];
+        let prefix = &self.prefix;
+        let total = prefix[len];
+        for tau in 0..=max_lag.min(len - 1) {
+            // Σ_{j<L−τ} x_j² + Σ_{j≥τ} x_j² − 2 r(τ); rounding can make tiny values negative.
+            let energies = prefix[len - tau] + (total - prefix[tau]);
             let r = f64::from(self.correlation[tau]) * scale;
-            // Equation 7; rounding can make tiny values negative.
-            self.difference[tau] = (e0 + e_tau - 2.0 * r).max(0.0);
+            // Per pair, scaled to the whole frame: L − τ pairs are summed at lag τ.
+            let pairs = len as f64 / (len - tau) as f64;
+            self.difference[tau] = (energies - 2.0 * r).max(0.0) * pairs;
         }
         // Equation 8.
         out[0] = 1.0;
@@ -332,7 +326,7 @@ pub fn yin(
     threshold: f64,
 ) -> Vec<f64> {
     let (min_lag, max_lag) = lag_range(sample_rate, options.fmin, options.fmax);
-    let mut analyser = Yin::new(options.win_length, max_lag);
+    let mut analyser = Yin::new(options.frame_length, max_lag);
     let hop = hop_length.max(1);
     let n_frames = 1 + signal.len() / hop;
     let mut frame = Vec::new();
@@ -437,6 +431,11 @@ fn frame_candidates(
         }
     }
     let mut below_none = 0.0;
+    // e^{−λ r} for every rank a dip can have.
+    let decay: Vec<f64> = (0..=troughs.len())
+        .map(|r| (-lambda * r as f64).exp())
+        .collect();
+    let first = 1.0 - (-lambda).exp();
     for (s, &mass) in beta_probs.iter().enumerate() {
         let threshold = (s + 1) as f64 / n_thresholds as f64;
         let count = height.iter().filter(|&&h| h < threshold).count();
@@ -445,11 +444,11 @@ fn frame_candidates(
             continue;
         }
         // Boltzmann pmf over ranks 0 … count−1: (1 − e^{−λ}) e^{−λ r} / (1 − e^{−λ count}).
-        let norm = (1.0 - (-lambda).exp()) / (1.0 - (-lambda * count as f64).exp());
+        let norm = mass * first / (1.0 - decay[count]);
         let mut rank = 0usize;
         for (t, &h) in height.iter().enumerate() {
             if h < threshold {
-                probs[t] += mass * norm * (-lambda * rank as f64).exp();
+                probs[t] += norm * decay[rank];
                 rank += 1;
             }
         }
@@ -481,7 +480,7 @@ pub fn pyin(
     let fmin = sr / max_lag as f64;
     let fmin = fmin.max(options.fmin);
     let fmax = (sr / min_lag as f64).min(options.fmax.max(fmin * 1.01));
-    let mut analyser = Yin::new(options.win_length, max_lag);
+    let mut analyser = Yin::new(options.frame_length, max_lag);
     let n_frames = 1 + signal.len() / hop;
 
     let n_thresholds = options.n_thresholds.max(1);
@@ -563,14 +562,111 @@ pub fn pyin(
     }
 }
 
-/// `best[j] = max(best[j], source[j] + w)`, recording `j + offset` as the source index where
-/// the source wins.
-fn sweep(best: &mut [f32], arg: &mut [u32], source: &[f32], offset: u32, w: f32) {
-    for (j, ((b, a), s)) in best.iter_mut().zip(arg.iter_mut()).zip(source).enumerate() {
-        let c = s + w;
-        let win = c > *b;
-        *b = if win { c } else { *b };
-        *a = if win { j as u32 + offset } else { *a };
+/// Banded max-plus convolution from the left: for every target `j`,
+/// `out[j] = max_{i ∈ [j − h, j]} source[i] + w[j − i]` with `h = w.len() − 1`, and `arg[j]`
+/// the leftmost maximising `i`.
+///
+/// `w` must be concave (the log of the triangular transition weights is). Then the matrix
+/// `source[i] + w[j − i]` is inverse-Monge on its band and the leftmost maximiser is
+/// non-decreasing in `j` (the row-maxima property behind SMAWK, Aggarwal et al. 1987), so a
+/// divide and conquer over the rows — the middle row by a scan, the halves within the bounds it
+/// sets — needs `O((n + h) log n)` evaluations instead of `n · h`.
+fn band_max_left(
+    source: &[f32],
+    w: &[f32],
+    out: &mut [f32],
+    arg: &mut [u32],
+    stack: &mut Vec<[usize; 4]>,
+) {
+    let n = source.len();
+    if n == 0 || w.is_empty() {
+        return;
+    }
+    let h = w.len() - 1;
+    stack.clear();
+    stack.push([0, n - 1, 0, n - 1]);
+    while let Some([jlo, jhi, ilo, ihi]) = stack.pop() {
+        let j = jlo + (jhi - jlo) / 2;
+        let mut lo = ilo.max(j.saturating_sub(h));
+        let mut hi = ihi.min(j);
+        if lo > hi {
+            // Unreachable in exact arithmetic; fall back to the whole band.
+            lo = j.saturating_sub(h);
+            hi = j;
+        }
+        let mut best = f32::NEG_INFINITY;
+        let mut best_i = lo;
+        let kernel = w[j - hi..=j - lo].iter().rev();
+        for (i, (s, k)) in (lo..=hi).zip(source[lo..=hi].iter().zip(kernel)) {
+            let c = s + k;
+            let win = c > best;
+            best = if win { c } else { best };
+            best_i = if win { i } else { best_i };
+        }
+        out[j] = best;
+        arg[j] = best_i as u32;
+        if j > jlo {
+            stack.push([jlo, j - 1, ilo, best_i]);
+        }
+        if j < jhi {
+            stack.push([j + 1, jhi, best_i, ihi]);
+        }
+    }
+}
+
+/// Banded max-plus convolution over `|i − j| ≤ h` with a symmetric concave kernel `w`
+/// (`w[d]` for distance `d`): `out[j] = max_i source[i] + w[|i − j|]`, `arg[j]` a maximiser.
+/// Two one-sided passes of [`band_max_left`], the second on the reversed arrays.
+struct BandMax {
+    reversed: Vec<f32>,
+    left: Vec<f32>,
+    left_arg: Vec<u32>,
+    right: Vec<f32>,
+    right_arg: Vec<u32>,
+    stack: Vec<[usize; 4]>,
+}
+
+impl BandMax {
+    fn new(n: usize) -> BandMax {
+        BandMax {
+            reversed: vec![0.0; n],
+            left: vec![0.0; n],
+            left_arg: vec![0; n],
+            right: vec![0.0; n],
+            right_arg: vec![0; n],
+            stack: Vec::new(),
+        }
+    }
+
+    fn run(&mut self, source: &[f32], w: &[f32], out: &mut [f32], arg: &mut [u32]) {
+        let n = source.len();
+        band_max_left(
+            source,
+            w,
+            &mut self.left,
+            &mut self.left_arg,
+            &mut self.stack,
+        );
+        for (r, s) in self.reversed.iter_mut().zip(source.iter().rev()) {
+            *r = *s;
+        }
+        band_max_left(
+            &self.reversed,
+            w,
+            &mut self.right,
+            &mut self.right_arg,
+            &mut self.stack,
+        );
+        for j in 0..n {
+            let (l, r) = (self.left[j], self.right[n - 1 - j]);
+            if r > l {
+                out[j] = r;
+                arg[j] = (n - 1) as u32 - self.right_arg[n - 1 - j];
+            } else {
+                out[j] = l;
+                arg[j] = self.left_arg[j];
+            }
+        }
     }
 }
 
@@ -626,7 +722,10 @@ fn viterbi(
     let mut source = vec![NEG; 2 * n];
     let mut next = vec![NEG; 2 * n];
     let mut arg = vec![0u16; 2 * n];
-    let mut arg_wide = vec![0u32; 2 * n];
+    let mut arg_wide = vec![0u32; n];
+    let mut merged = vec![NEG; n];
+    let mut layer = vec![0u32; n];
+    let mut band = BandMax::new(n);
     for t in 1..n_frames {
         // Fold the row normalisation into the source scores.
         for i in 0..n {
@@ -634,52 +733,23 @@ fn viterbi(
             source[n + i] = score[n + i] - row_log_norm[i];
         }
         // Unvoiced targets: from unvoiced (stay) and voiced (switch) sources within the band.
-        // The band is swept one offset at a time over contiguous slices, a branch-free
-        // compare-and-select per state that the compiler vectorises.
-        {
-            let (_, next_u) = next.split_at_mut(n);
-            let (_, arg_u) = arg_wide.split_at_mut(n);
-            let source_u = &source[n..];
-            next_u.fill(NEG);
-            for (j, a) in arg_u.iter_mut().enumerate() {
-                *a = j as u32;
-            }
-            for (d, w) in log_w.iter().enumerate() {
-                let w = w + log_stay;
-                if d >= n {
-                    break;
-                }
-                // Sources i = j − d.
-                sweep(&mut next_u[d..], &mut arg_u[d..], &source_u[..n - d], 0, w);
-                if d > 0 {
-                    // Sources i = j + d.
-                    sweep(
-                        &mut next_u[..n - d],
-                        &mut arg_u[..n - d],
-                        &source_u[d..],
-                        d as u32,
-                        w,
-                    );
-                }
-            }
-            for (a, wide) in arg[n..].iter_mut().zip(arg_u.iter()) {
-                *a = (n as u32 + *wide) as u16;
+        // Both layers share the triangular kernel, so the better of the two per source bin is
+        // convolved once.
+        for i in 0..n {
+            let stay = source[n + i] + log_stay;
+            let switch = source[i] + log_switch;
+            if switch > stay {
+                merged[i] = switch;
+                layer[i] = 0;
+            } else {
+                merged[i] = stay;
+                layer[i] = n as u32;
             }
         }
-        // Voiced sources alive at t − 1 (finite score) also reach unvoiced targets.
-        for i in 0..n {
-            if source[i] == NEG {
-                continue;
-            }
-            let lo = i.saturating_sub(h);
-            let hi = (i + h).min(n - 1);
-            for j in lo..=hi {
-                let c = source[i] + log_w[i.abs_diff(j)] + log_switch;
-                if c > next[n + j] {
-                    next[n + j] = c;
-                    arg[n + j] = i as u16;
-                }
-            }
+        band.run(&merged, &log_w, &mut next[n..], &mut arg_wide);
+        for (a, wide) in arg[n..].iter_mut().zip(arg_wide.iter()) {
+            let i = *wide as usize;
+            *a = (layer[i] + *wide) as u16;
         }
         let log_unvoiced = ((1.0 - f64::from(voiced_prob[t])).max(1e-30) / n as f64).ln() as f32;
         for v in next[n..].iter_mut() {
@@ -741,17 +811,21 @@ mod tests {
 
     use crate::audio::test_signals::sine;
 
-    /// The difference function straight from equation 6, the obviously-correct reference.
-    fn naive_cmndf(x: &[f32], w: usize, max_lag: usize) -> Vec<f64> {
+    /// The difference function straight from its definition (the mean squared difference
+    /// over the pairs of samples `τ` apart within the frame, times the frame length), the
+    /// obviously-correct reference.
+    fn naive_cmndf(x: &[f32], len: usize, max_lag: usize) -> Vec<f64> {
         let d: Vec<f64> = (0..=max_lag)
             .map(|tau| {
-                (0..w)
+                let pairs = len.saturating_sub(tau);
+                let sum: f64 = (0..pairs)
                     .map(|j| {
                         let a = f64::from(x.get(j).copied().unwrap_or(0.0));
                         let b = f64::from(x.get(j + tau).copied().unwrap_or(0.0));
                         (a - b) * (a - b)
                     })
-                    .sum()
+                    .sum();
+                sum * len as f64 / pairs.max(1) as f64
             })
             .collect();
         let mut out = vec![1.0; max_lag + 1];
@@ -768,10 +842,17 @@ mod tests {
     }
 
     #[test]
-    fn fft_difference_matches_equation_6() {
+    fn fft_difference_matches_the_definition() {
         let mut seed = 99u64;
-        for (w, max_lag) in [(16usize, 8usize), (64, 40), (100, 77), (1024, 338)] {
-            let x: Vec<f32> = (0..w + max_lag)
+        for (w, max_lag) in [
+            (16usize, 8usize),
+            (64, 40),
+            (100, 77),
+            (1024, 338),
+            (1690, 358),
+            (2048, 358),
+        ] {
+            let x: Vec<f32> = (0..w)
                 .map(|_| {
                     seed = seed
                         .wrapping_mul(6364136223846793005)
@@ -788,6 +869,60 @@ mod tests {
                     (g - e).abs() < 1e-3,
                     "W {w}: first difference at lag {tau}: {g} vs {e}"
                 );
+            }
+        }
+    }
+
+    #[test]
+    fn band_max_matches_a_direct_scan() {
+        let mut seed = 7u64;
+        let mut random = || {
+            seed = seed
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (seed >> 40) as f32 / (1u64 << 24) as f32
+        };
+        for (n, h) in [
+            (1usize, 0usize),
+            (2, 1),
+            (7, 3),
+            (50, 50),
+            (300, 50),
+            (620, 50),
+            (97, 5),
+        ] {
+            // The log triangular kernel of the HMM (concave).
+            let w: Vec<f32> = (0..=h)
+                .map(|d| (1.0 - d as f64 / (h as f64 + 1.0)).ln() as f32)
+                .collect();
+            for round in 0..20 {
+                // Smooth and rough sources, some with steep slopes.
+                let source: Vec<f32> = (0..n)
+                    .map(|i| {
+                        let x = i as f32 / n as f32;
+                        match round % 3 {
+                            0 => -30.0 * random(),
+                            1 => -40.0 * (x - random()).abs(),
+                            _ => -5.0 * random() - 60.0 * x * x,
+                        }
+                    })
+                    .collect();
+                let mut out = vec![0.0; n];
+                let mut arg = vec![0u32; n];
+                BandMax::new(n).run(&source, &w, &mut out, &mut arg);
+                for j in 0..n {
+                    let lo = j.saturating_sub(h);
+                    let hi = (j + h).min(n - 1);
+                    let expected = (lo..=hi)
+                        .map(|i| source[i] + w[i.abs_diff(j)])
+                        .fold(f32::NEG_INFINITY, f32::max);
+                    let i = arg[j] as usize;
+                    assert!(
+                        out[j] == expected && source[i] + w[i.abs_diff(j)] == expected,
+                        "n {n} h {h} round {round}: first difference at {j}: {} vs {expected}",
+                        out[j]
+                    );
+                }
             }
         }
     }
