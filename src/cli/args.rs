@@ -238,6 +238,17 @@ impl HarmonyArgs {
     }
 }
 
+/// `--audio-melody` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum MelodySourceArg {
+    /// pYIN for one line, the predominant melody for a mix (decided from pYIN's voicing).
+    Auto,
+    /// One instrument or voice alone: pYIN.
+    Solo,
+    /// A full arrangement: the predominant melody.
+    Mix,
+}
+
 /// The null model of unrelated melodies.
 #[derive(Debug, Args)]
 pub struct StatisticsArgs {
@@ -507,6 +518,20 @@ pub struct AudioArgs {
     /// Time of a downbeat in the recording, in seconds (estimated when not given).
     #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
     pub downbeat: Option<f64>,
+    /// Expected tempo in beats per minute: the centre of the tempo estimate's prior (120 when
+    /// not given); the beats still come from the recording.
+    #[arg(long, value_name = "BPM", help_heading = "AUDIO")]
+    pub tempo: Option<f64>,
+    /// Where a recording's melody comes from: `auto` (one line → pYIN, a mix → predominant
+    /// melody), `solo` or `mix`.
+    #[arg(
+        long,
+        value_enum,
+        default_value_t = MelodySourceArg::Auto,
+        value_name = "KIND",
+        help_heading = "AUDIO"
+    )]
+    pub audio_melody: MelodySourceArg,
     /// Frequency of A4 (MIDI 69) used to name pitches, in Hz.
     #[arg(
         long,
@@ -567,6 +592,14 @@ impl AudioArgs {
                 )));
             }
         }
+        if self
+            .tempo
+            .is_some_and(|t| !t.is_finite() || !(20.0..=400.0).contains(&t))
+        {
+            return Err(UsageError(
+                "--tempo must be a number of beats per minute from 20 to 400".into(),
+            ));
+        }
         if let (Some(a), Some(b)) = (self.from, self.to) {
             if b <= a {
                 return Err(UsageError(format!("--to ({b}) must be after --from ({a})")));
@@ -583,7 +616,13 @@ impl AudioArgs {
         options.decode.max_seconds = self.max_audio_seconds;
         options.meter = self.meter.map(|m| (m.0, m.1));
         options.downbeat = self.downbeat;
+        options.analysis.beats.tempo_hint = self.tempo;
         options.analysis.reference_hz = self.a4;
+        options.analysis.melody_source = match self.audio_melody {
+            MelodySourceArg::Auto => collatio::audio::MelodySource::Auto,
+            MelodySourceArg::Solo => collatio::audio::MelodySource::Solo,
+            MelodySourceArg::Mix => collatio::audio::MelodySource::Mix,
+        };
         options.analysis.pitch.fmin = self.fmin;
         options.analysis.pitch.fmax = self.fmax;
         Ok(options)
