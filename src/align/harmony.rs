@@ -75,7 +75,9 @@ pub struct HarmonyParams {
     pub block: usize,
     /// Seed of the shuffles. Default 20261202.
     pub seed: u64,
-    /// Largest recurrence plot, in cells; longer inputs use a coarser `step`. Default 16 M.
+    /// Largest recurrence plot, in cells; longer inputs use a coarser `step` (memory about
+    /// 16 bytes a cell). Default 4 M (two recordings of about six minutes at the default
+    /// step).
     pub max_cells: usize,
 }
 
@@ -96,7 +98,7 @@ impl Default for HarmonyParams {
             shuffles: 99,
             block: 16,
             seed: 20_261_202,
-            max_cells: 16_000_000,
+            max_cells: 4_000_000,
         }
     }
 }

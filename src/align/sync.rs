@@ -27,6 +27,9 @@ use serde::Serialize;
 /// Silence added before and after the score, seconds, for a recording's lead-in and ending.
 const PAD_SECONDS: f64 = 2.0;
 
+/// Largest first-pass cost matrix, cells (16 MB of accumulated costs).
+const MAX_COARSE_CELLS: usize = 4_000_000;
+
 /// Parameters of the alignment.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SyncParams {
@@ -170,7 +173,12 @@ fn align_features(
     let hop = score.hop_seconds;
     let w = params.onset_weight;
     let cost = |i: usize, j: usize| pair_cost(recording, i, score, j, w);
-    let factor = params.coarse.max(1);
+    // Coarser still when the first pass would hold more than MAX_COARSE_CELLS cells (hours of
+    // music), so memory stays bounded.
+    let mut factor = params.coarse.max(1);
+    while (recording.len() / factor) * (score.len() / factor) > MAX_COARSE_CELLS {
+        factor *= 2;
+    }
     let path = if factor > 1 && recording.len() >= 4 * factor && score.len() >= 4 * factor {
         let coarse_r = coarsen(recording, factor);
         let coarse_s = coarsen(score, factor);
