@@ -175,3 +175,13 @@ fn a_recording_of_part_of_the_score_is_placed_where_it_belongs() {
         sync.score_span
     );
 }
+
+#[test]
+fn a_recording_of_the_melody_alone_takes_the_full_scores_bars() {
+    // larkfield's flute part rendered alone (make_melody_only.py) against the full score
+    // (flute, piano, bass): the alignment tries the score's full chroma, then its melody's.
+    let score = read("larkfield.musicxml");
+    let (share, errors, shift) = bar_accuracy(&score, "larkfield_melody_only");
+    assert!(share >= MIN_SHARE, "{share}: {errors:?}");
+    assert_eq!(shift, 0);
+}

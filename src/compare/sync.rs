@@ -1,12 +1,14 @@
 //! A recording placed on a score's bars: when one work of a comparison is a score (or MIDI
 //! file) and the other a recording, the recording is aligned to the score by chroma DTW
-//! ([`crate::align::sync`]). When the recording performs the score, its beat-tracked bar grid
+//! ([`crate::align::sync`]), against the chroma of all the score's parts, or, when that does
+//! not fit, of its melody alone (a recording of only the tune). When the recording performs
+//! the score, its beat-tracked bar grid
 //! is replaced by the score's bars at the times the alignment gives them, and every note of
 //! the recording takes its bar and its position in the bar from the score; passages are then
 //! reported in the score's bar numbers on both sides and in the recording's seconds.
 
 use crate::align::sync::{synchronise, SyncParams, Synchronisation};
-use crate::features::chroma::chroma_of;
+use crate::features::chroma::{chroma_of, melody_chroma_of};
 use crate::timeline::{Bar, Piece, TimeSignature};
 use crate::units::{Beats, Seconds};
 use serde::Serialize;
@@ -58,7 +60,18 @@ pub fn follow_score(
     score_side: &'static str,
     params: &SyncParams,
 ) -> Option<SyncSummary> {
-    let sync = synchronise(&chroma_of(score), &chroma_of(recording), params)?;
+    // The recording may hold every part of the score or only its melody (a solo take of the
+    // tune): the score's full chroma first, its melody's when the full one does not follow.
+    let heard = chroma_of(recording);
+    let full = synchronise(&chroma_of(score), &heard, params)?;
+    let sync = if full.follows {
+        full
+    } else {
+        match synchronise(&melody_chroma_of(score), &heard, params) {
+            Some(tune) if tune.follows => tune,
+            _ => full,
+        }
+    };
     let bar_map: Vec<BarTime> = score
         .bars
         .iter()

@@ -12,7 +12,7 @@
 //! audio analysis step (512 samples at 22,050 Hz ≈ 23.2 ms) so that both kinds of piece share
 //! one time base, and each frame is divided by its maximum like the recording's chroma.
 
-use crate::timeline::{ChromaLayer, Piece};
+use crate::timeline::{ChromaLayer, Note, Piece};
 
 /// Frame step of derived chroma in seconds: the audio analysis hop (512 / 22,050 s).
 pub const HOP_SECONDS: f64 = 512.0 / 22_050.0;
@@ -48,39 +48,54 @@ pub fn chroma_of(piece: &Piece) -> ChromaLayer {
     if let Some(layer) = &piece.chroma {
         return layer.clone();
     }
-    let end = piece
-        .parts
-        .iter()
-        .filter(|p| !p.percussion)
-        .flat_map(|p| p.notes.iter())
+    chroma_of_notes(
+        piece
+            .parts
+            .iter()
+            .filter(|p| !p.percussion)
+            .flat_map(|p| p.notes.iter()),
+    )
+}
+
+/// The chroma of a piece's selected melody alone (the measured chroma for a recording): what
+/// a recording of only that line would show.
+pub fn melody_chroma_of(piece: &Piece) -> ChromaLayer {
+    if let Some(layer) = &piece.chroma {
+        return layer.clone();
+    }
+    chroma_of_notes(piece.melody.iter())
+}
+
+/// The chroma of a set of notes (see the module documentation).
+fn chroma_of_notes<'a>(notes: impl Iterator<Item = &'a Note> + Clone) -> ChromaLayer {
+    let end = notes
+        .clone()
         .map(|n| n.onset_seconds.0 + n.duration_seconds.0)
         .filter(|t| t.is_finite())
         .fold(0.0f64, f64::max);
     let n_frames = ((end / HOP_SECONDS).ceil() as usize + 1).min(MAX_FRAMES);
     let mut frames = vec![[0f32; 12]; n_frames];
     let mut onsets = vec![0f32; n_frames];
-    for part in piece.parts.iter().filter(|p| !p.percussion) {
-        for note in &part.notes {
-            let loudness = note.velocity.map_or(1.0, |v| f32::from(v.max(1)) / 100.0);
-            let mut template = note_template(note.pitch.0);
-            for t in &mut template {
-                *t *= loudness * loudness;
-            }
-            let first = (note.onset_seconds.0 / HOP_SECONDS).round().max(0.0) as usize;
-            let last = ((note.onset_seconds.0 + note.duration_seconds.0) / HOP_SECONDS)
-                .round()
-                .max(0.0) as usize;
-            if let Some(onset) = onsets.get_mut(first) {
-                *onset += loudness * loudness;
-            }
-            for frame in frames
-                .iter_mut()
-                .take(last.max(first + 1).min(n_frames))
-                .skip(first)
-            {
-                for (f, t) in frame.iter_mut().zip(&template) {
-                    *f += t;
-                }
+    for note in notes {
+        let loudness = note.velocity.map_or(1.0, |v| f32::from(v.max(1)) / 100.0);
+        let mut template = note_template(note.pitch.0);
+        for t in &mut template {
+            *t *= loudness * loudness;
+        }
+        let first = (note.onset_seconds.0 / HOP_SECONDS).round().max(0.0) as usize;
+        let last = ((note.onset_seconds.0 + note.duration_seconds.0) / HOP_SECONDS)
+            .round()
+            .max(0.0) as usize;
+        if let Some(onset) = onsets.get_mut(first) {
+            *onset += loudness * loudness;
+        }
+        for frame in frames
+            .iter_mut()
+            .take(last.max(first + 1).min(n_frames))
+            .skip(first)
+        {
+            for (f, t) in frame.iter_mut().zip(&template) {
+                *f += t;
             }
         }
     }
