@@ -46,7 +46,7 @@ pub struct SyncSummary {
     pub score_span_seconds: [f64; 2],
     /// Whether the recording's bars were taken from the score.
     pub bars_from_score: bool,
-    /// Start of every covered bar in the recording.
+    /// Start of every covered bar in the recording (empty unless the recording follows).
     pub bar_map: Vec<BarTime>,
     /// Every parameter used.
     pub parameters: SyncParams,
@@ -86,6 +86,8 @@ pub fn follow_score(
     let agreement = melody_agreement(score, recording, &sync);
     let follows = sync.follows && agreement >= MIN_MELODY_AGREEMENT;
     let bars_from_score = follows && bar_map.len() >= 2;
+    // A path through another work places nothing: no bar map unless the recording follows.
+    let bar_map = if follows { bar_map } else { Vec::new() };
     if bars_from_score {
         take_score_bars(recording, score, &sync);
     }
