@@ -168,22 +168,25 @@ pub fn compare_harmony(
     let m = params.embedding.max(1);
     let tau = params.delay.max(1);
     let span = (m - 1) * tau;
-    let mut chosen: Option<(i32, f32)> = None;
+    let mut chosen: Option<(i32, f32, Option<Plot>)> = None;
     for (index, _) in transposition_ranking(&fa, &fb)
         .into_iter()
         .take(TRANSPOSITIONS_TRIED)
     {
-        let value = if fa.len() > span + 1 && fb.len() > span + 1 {
+        let (value, plot) = if fa.len() > span + 1 && fb.len() > span + 1 {
             let plot = recurrence_plot(&fa, &fb.rotated(index), m, tau, params);
-            qmax_kernel(&plot.cells, None, plot.rows, plot.cols, params, None).map_or(0.0, |b| b.1)
+            let value = qmax_kernel(&plot.cells, None, plot.rows, plot.cols, params, None)
+                .map_or(0.0, |b| b.1);
+            (value, Some(plot))
         } else {
-            0.0
+            (0.0, None)
         };
-        if chosen.is_none_or(|(_, v)| value > v) {
-            chosen = Some((index, value));
+        if chosen.as_ref().is_none_or(|(_, v, _)| value > *v) {
+            chosen = Some((index, value, plot));
         }
     }
-    compare_at(&fa, &fb, chosen.map_or(0, |c| c.0), params)
+    let (index, plot) = chosen.map_or((0, None), |(i, _, p)| (i, p));
+    compare_at(&fa, &fb.rotated(index), index, plot, params)
 }
 
 /// The step that keeps the plot under `max_cells`.
@@ -195,13 +198,14 @@ fn coarse_enough(a: &ChromaLayer, b: &ChromaLayer, params: &HarmonyParams) -> us
     step
 }
 
+/// The passages of A against B already moved by `index`, on the plot computed for it.
 fn compare_at(
     fa: &ChromaFeatures,
     fb: &ChromaFeatures,
     index: i32,
+    plot: Option<Plot>,
     params: &HarmonyParams,
 ) -> HarmonicComparison {
-    let fb = fb.rotated(index);
     let hop = fa.hop_seconds;
     let empty = HarmonicComparison {
         transposition_semitones: super::chroma::signed_shift(index),
@@ -210,13 +214,10 @@ fn compare_at(
         null_max: 0.0,
         matches: Vec::new(),
     };
-    let m = params.embedding.max(1);
-    let tau = params.delay.max(1);
-    let span = (m - 1) * tau;
-    if fa.len() <= span + 1 || fb.len() <= span + 1 {
+    let span = (params.embedding.max(1) - 1) * params.delay.max(1);
+    let Some(plot) = plot else {
         return empty;
-    }
-    let plot = recurrence_plot(fa, &fb, m, tau, params);
+    };
     let recurrent = plot.cells.iter().filter(|c| **c).count();
     let null = null_maxima(&plot, params);
     let null_max = null.iter().copied().fold(0.0f32, f32::max);
