@@ -43,6 +43,21 @@ pub fn hann(n: usize) -> Vec<f32> {
         .collect()
 }
 
+/// Fills `out` with the samples of `signal` from `start` (negative before the signal; zero
+/// outside it) times `window`, and zeros after the window's length (zero padding when `out` is
+/// longer than the window).
+pub(crate) fn windowed_frame(signal: &[f32], start: isize, window: &[f32], out: &mut [f32]) {
+    for (i, slot) in out.iter_mut().enumerate() {
+        let at = start + i as isize;
+        let sample = if at >= 0 {
+            signal.get(at as usize).copied().unwrap_or(0.0)
+        } else {
+            0.0
+        };
+        *slot = window.get(i).map_or(0.0, |w| sample * w);
+    }
+}
+
 impl Stft {
     /// Plans an STFT of `n_fft` samples (≥ 2; 2048 ≈ 93 ms at 22,050 Hz) every `hop_length`
     /// samples (≥ 1).
@@ -88,15 +103,7 @@ impl Stft {
     /// Power spectrum |X|² of frame `k` of `signal`, bins `0 ..= n_fft/2`.
     pub fn power_frame(&mut self, signal: &[f32], k: usize) -> &[f32] {
         let start = (k * self.hop_length) as isize - (self.n_fft / 2) as isize;
-        for (i, slot) in self.input.iter_mut().enumerate() {
-            let at = start + i as isize;
-            let sample = if at >= 0 {
-                signal.get(at as usize).copied().unwrap_or(0.0)
-            } else {
-                0.0
-            };
-            *slot = sample * self.window[i];
-        }
+        windowed_frame(signal, start, &self.window, &mut self.input);
         if self
             .fft
             .process_with_scratch(&mut self.input, &mut self.output, &mut self.scratch)

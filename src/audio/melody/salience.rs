@@ -212,20 +212,7 @@ impl SalienceAnalyser {
         self.peaks.clear();
         let half = self.window.len() / 2;
         let start = (k * self.hop_length) as isize - half as isize;
-        let w = self.window.len();
-        for (i, slot) in self.input.iter_mut().enumerate() {
-            *slot = if i < w {
-                let at = start + i as isize;
-                let x = if at >= 0 {
-                    signal.get(at as usize).copied().unwrap_or(0.0)
-                } else {
-                    0.0
-                };
-                x * self.window[i]
-            } else {
-                0.0
-            };
-        }
+        crate::audio::stft::windowed_frame(signal, start, &self.window, &mut self.input);
         if self
             .fft
             .process_with_scratch(&mut self.input, &mut self.output, &mut self.scratch)
