@@ -132,6 +132,9 @@ pub struct HarmonicComparison {
     pub transposition_semitones: i32,
     /// Seconds between feature frames.
     pub frame_seconds: f64,
+    /// Seconds of chroma averaged into each feature frame: passage edges are no sharper
+    /// than about half of it.
+    pub window_seconds: f64,
     /// Share of all cells of the recurrence plot that are recurrent.
     pub recurrence_rate: f64,
     /// The largest Qmax among the shuffled plots (the level a passage must pass to reach the
@@ -210,6 +213,7 @@ fn compare_at(
     let empty = HarmonicComparison {
         transposition_semitones: super::chroma::signed_shift(index),
         frame_seconds: hop,
+        window_seconds: hop * params.window.max(params.step) as f64 / params.step.max(1) as f64,
         recurrence_rate: 0.0,
         null_max: 0.0,
         matches: Vec::new(),
@@ -238,8 +242,18 @@ fn compare_at(
                 blocked[i * plot.cols + j] = true;
             }
         }
-        let a_seconds = [first.0 as f64 * hop, (last.0 + span + 1) as f64 * hop];
-        let b_seconds = [first.1 as f64 * hop, (last.1 + span + 1) as f64 * hop];
+        // From the middle of the first matching state to the middle of the last: a state
+        // spans `span + 1` frames, and one that only half overlaps the shared stretch can
+        // still count as recurrent, so its edges would overstate the passage.
+        let centre = (span + 1) as f64 / 2.0;
+        let a_seconds = [
+            (first.0 as f64 + centre) * hop,
+            (last.0 as f64 + centre) * hop,
+        ];
+        let b_seconds = [
+            (first.1 as f64 + centre) * hop,
+            (last.1 as f64 + centre) * hop,
+        ];
         let exceed = null.iter().filter(|x| **x >= score).count();
         let empirical_p = (1 + exceed) as f64 / (null.len() + 1) as f64;
         if a_seconds[1] - a_seconds[0] < params.min_seconds || empirical_p > params.max_p {

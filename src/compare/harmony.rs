@@ -79,8 +79,8 @@ pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &Harmo
         .enumerate()
         .map(|(k, m)| HarmonicPassage {
             rank: k + 1,
-            a: side(a, m.a_seconds),
-            b: side(b, m.b_seconds),
+            a: side(a, m.a_seconds, found.window_seconds / 2.0),
+            b: side(b, m.b_seconds, found.window_seconds / 2.0),
             score: m.score,
             similarity: m.similarity,
             empirical_p: m.empirical_p,
@@ -116,12 +116,15 @@ pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &Harmo
     });
 }
 
-/// A time span of a piece with the bars it covers.
-fn side(piece: &Piece, seconds: [f64; 2]) -> HarmonicSide {
-    let first = piece.bar_at_seconds(seconds[0]);
+/// A time span of a piece with the bars it covers: a bar line within `blur` seconds after the
+/// start (or before the end) counts as the span's edge, as the chroma averaging blurs edges by
+/// about that much.
+fn side(piece: &Piece, seconds: [f64; 2], blur: f64) -> HarmonicSide {
+    let inner = |t: f64| t.clamp(seconds[0], seconds[1].max(seconds[0]));
+    let first = piece.bar_at_seconds(inner(seconds[0] + blur));
     // The bar holding the last moment of the span, not the one starting at its end.
     let last = piece
-        .bar_at_seconds((seconds[1] - 1e-3).max(seconds[0]))
+        .bar_at_seconds(inner(seconds[1] - blur.max(1e-3)))
         .max(first);
     let label = |i: usize| {
         piece
