@@ -258,11 +258,9 @@ fn extend_to_emergence(
         while start > earliest {
             let k = start - 1;
             let present = track.candidates.get(k).is_some_and(|frame| {
-                frame.iter().any(|(f, p)| {
-                    *f > 0.0
-                        && *p >= EMERGENCE_PROB
-                        && (super::midi_of_hz(f64::from(*f), reference_hz) - target).abs() < 0.5
-                })
+                frame
+                    .iter()
+                    .any(|(f, p)| *p >= EMERGENCE_PROB && near(*f, target, reference_hz))
             });
             if !present {
                 break;
@@ -285,14 +283,17 @@ const DISTURBANCE_RATIO: f64 = 0.9;
 /// it, the note's periodicity is too weak to tell a disturbance from its usual flutter).
 const MIN_TYPICAL_PROBABILITY: f64 = 0.3;
 
+/// Whether a candidate frequency (Hz) lies within 50 cents of `target` (fractional MIDI).
+fn near(hz: f32, target: f64, reference_hz: f64) -> bool {
+    hz > 0.0 && (super::midi_of_hz(f64::from(hz), reference_hz) - target).abs() < 0.5
+}
+
 /// Probability mass of the frame's candidates within 50 cents of `target` (fractional MIDI).
 fn pitch_probability(track: &PitchTrack, k: usize, target: f64, reference_hz: f64) -> f64 {
     track.candidates.get(k).map_or(0.0, |frame| {
         frame
             .iter()
-            .filter(|(f, _)| {
-                *f > 0.0 && (super::midi_of_hz(f64::from(*f), reference_hz) - target).abs() < 0.5
-            })
+            .filter(|(f, _)| near(*f, target, reference_hz))
             .map(|(_, p)| f64::from(*p))
             .sum()
     })
