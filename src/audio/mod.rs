@@ -255,7 +255,18 @@ pub fn analyse(samples: &[f32], options: &AnalysisOptions) -> Analysis {
         options.reference_hz,
         &options.notes,
     );
-    let beats = beats::track_beats(&onset_strength, sr, hop, &options.beats);
+    let frame_rate = f64::from(sr) / hop as f64;
+    let note_onsets: Vec<(usize, f32)> = notes
+        .iter()
+        .map(|n| {
+            (
+                (n.onset * frame_rate).round().max(0.0) as usize,
+                n.confidence,
+            )
+        })
+        .collect();
+    let envelope = beats::beat_envelope(&onset_strength, &note_onsets, options.beats.note_weight);
+    let beats = beats::track_beats(&envelope, sr, hop, &options.beats);
     Analysis {
         sample_rate: sr,
         hop_length: hop,

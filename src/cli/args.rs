@@ -518,8 +518,9 @@ pub struct AudioArgs {
     /// Time of a downbeat in the recording, in seconds (estimated when not given).
     #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
     pub downbeat: Option<f64>,
-    /// Expected tempo in beats per minute: the centre of the tempo estimate's prior (120 when
-    /// not given); the beats still come from the recording.
+    /// Expected tempo in beats per minute: the tempo estimate then keeps to within about a
+    /// third of it, which settles the metrical level (eighths or quarters); the beats still
+    /// come from the recording.
     #[arg(long, value_name = "BPM", help_heading = "AUDIO")]
     pub tempo: Option<f64>,
     /// Where a recording's melody comes from: `auto` (one line → pYIN, a mix → predominant

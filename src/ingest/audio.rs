@@ -404,7 +404,7 @@ fn build(
     };
     let detail = format!(
         "{} in {}, {} Hz, {} channel{}, {:.3} s; analysed {range} ({:.3} s) at {} Hz; tuning \
-         {:+.0} cents; tempo {:.1} bpm (tracked); meter {numerator}/{denominator} ({}); \
+         {:+.0} cents; {}; meter {numerator}/{denominator} ({}); \
          downbeat {}; bars estimated from the beats; {} notes transcribed ({}){}",
         decoded.codec,
         container_name(format),
@@ -415,7 +415,11 @@ fn build(
         duration,
         decoded.sample_rate,
         analysis.chroma.tuning * 100.0,
-        analysis.beats.tempo_bpm,
+        if analysis.beats.beats.is_empty() {
+            "no steady beat (120 bpm assumed)".to_string()
+        } else {
+            format!("tempo {:.1} bpm (tracked)", analysis.beats.tempo_bpm)
+        },
         if meter_given { "given" } else { "assumed" },
         if options.downbeat.is_some() {
             "given"
