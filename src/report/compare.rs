@@ -182,6 +182,10 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
              highest {})\n",
             null.shuffles, null.seed, null.mean, null.sd, null.max
         ));
+        let caution = super::exhibit::shuffle_caution(null);
+        if !caution.is_empty() {
+            out.push_str(&format!(" {caution}\n"));
+        }
     }
     for p in &result.passages {
         out.push_str(&render_passage(a, b, p));

@@ -1028,6 +1028,9 @@ pub struct ExhibitContext {
     /// The statistics stage's summary of its null model, as `name = value` pairs (empty when
     /// it did not run).
     pub null_model: String,
+    /// A caution when the null model's shuffles gave few distinct pitch orders (empty
+    /// otherwise).
+    pub shuffle_caution: String,
     /// Harmonic evidence, when computed.
     pub harmony: Option<super::evidence::HarmonyContext>,
     /// A recording placed on a score, when one work is each.
@@ -1099,9 +1102,39 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         null_model: serde_json::to_value(&r.null_model)
             .map(|v| summary_text(&v))
             .unwrap_or_default(),
+        shuffle_caution: r
+            .null_model
+            .as_ref()
+            .map(shuffle_caution)
+            .unwrap_or_default(),
         harmony: super::evidence::harmony_context(r.harmony.as_ref()),
         sync: super::evidence::sync_context(r.synchronisation.as_ref()),
     }
+}
+
+/// The caution stated when the null model's shuffles gave few distinct pitch orders
+/// ([`crate::stats::null::NullSummary::few_orders`]); empty otherwise.
+pub fn shuffle_caution(null: &crate::stats::null::NullSummary) -> String {
+    if !null.few_orders() {
+        return String::new();
+    }
+    let few = |n: usize| 2 * n < null.shuffles;
+    let which = match (few(null.distinct_a), few(null.distinct_b)) {
+        (true, true) => format!(
+            "A and B in only {} and {} distinct ways",
+            null.distinct_a, null.distinct_b
+        ),
+        (true, false) => format!("A in only {} distinct ways", null.distinct_a),
+        _ => format!("B in only {} distinct ways", null.distinct_b),
+    };
+    format!(
+        "The shuffles behind the chance figures could reorder the pitches of {which} out of {} \
+         drawn: keeping runs of {} pitches leaves little freedom in a melody with few repeated \
+         figures, so the shuffled melodies keep much of the originals, including what the two \
+         works share. The chance figures are therefore conservative: they make a passage look \
+         more likely to arise by chance than it is.",
+        null.shuffles, null.run_length
+    )
 }
 
 /// What [`write_exhibit`] wrote.

@@ -1,8 +1,8 @@
 //! The null model: how strong is the best local alignment between unrelated melodies of the
 //! same make-up as the two compared?
 //!
-//! Both melodies are shuffled keeping their adjacent pairs ([`super::shuffle`]); each pair of
-//! shuffles is aligned with the same parameters (best score over all 12 transpositions, so
+//! Both melodies are shuffled keeping their runs of `run_length` pitches
+//! ([`super::shuffle`]); each pair of shuffles is aligned with the same parameters (best score over all 12 transpositions, so
 //! the search over transpositions is part of the null); a Gumbel distribution is fitted to
 //! those maxima ([`super::gumbel`]); each passage gets an E-value and a p-value from it, and
 //! an empirical p-value from the shuffles themselves. The generator is seeded (ChaCha8), the
@@ -63,6 +63,20 @@ pub struct NullSummary {
     pub k: Option<f64>,
     /// Length of the pitch runs the shuffles kept.
     pub run_length: usize,
+    /// Distinct pitch orders among the shuffles of A (the original order counts when drawn).
+    /// Keeping runs of pitches can leave a melody without repeated figures little freedom:
+    /// far fewer distinct orders than shuffles mean the null holds much of the melody itself.
+    pub distinct_a: usize,
+    /// Distinct pitch orders among the shuffles of B.
+    pub distinct_b: usize,
+}
+
+impl NullSummary {
+    /// Whether either melody's shuffles gave fewer distinct pitch orders than half the
+    /// shuffles, so that the chance figures are conservative (see [`NullSummary::distinct_a`]).
+    pub fn few_orders(&self) -> bool {
+        self.shuffles > 0 && 2 * self.distinct_a.min(self.distinct_b) < self.shuffles
+    }
 }
 
 /// The fitted null for one pair of melodies.
@@ -89,6 +103,14 @@ impl NullModel {
             .par_iter()
             .map(|(sa, sb)| best_score(sa, sb, align))
             .collect();
+        let distinct = |pick: fn(&(Sequence, Sequence)) -> &Sequence| {
+            let orders: std::collections::BTreeSet<Vec<i32>> = pairs
+                .iter()
+                .map(|pair| pick(pair).notes.iter().map(|n| n.pitch).collect())
+                .collect();
+            orders.len()
+        };
+        let (distinct_a, distinct_b) = (distinct(|p| &p.0), distinct(|p| &p.1));
         let as_f64: Vec<f64> = scores.iter().map(|&s| f64::from(s)).collect();
         let n = as_f64.len().max(1) as f64;
         let mean = as_f64.iter().sum::<f64>() / n;
@@ -116,6 +138,8 @@ impl NullModel {
                 k: gumbel.map(|g| g.k(a.len(), b.len())),
                 gumbel,
                 run_length: params.run_length,
+                distinct_a,
+                distinct_b,
             },
             scores,
         }
@@ -159,4 +183,43 @@ pub fn assess(
         passage.significance = Some(model.significance(passage.score));
     }
     comparison.null_model = Some(model.summary);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::stats::shuffle::tests::seq;
+
+    fn summary(a: &Sequence, b: &Sequence) -> NullSummary {
+        let params = NullParams {
+            shuffles: 40,
+            ..NullParams::default()
+        };
+        NullModel::fit(a, b, &AlignParams::default(), &params).summary
+    }
+
+    #[test]
+    fn a_melody_without_repeated_figures_has_one_order() {
+        // Every run of three pitches occurs once, so the graph of the 4-let shuffle is a
+        // simple path and its only Eulerian path is the melody itself (BEST theorem; common
+        // practice for de Bruijn-type graphs).
+        let rising: Vec<i32> = (0..30).map(|i| 48 + (i * 7) % 36).collect();
+        let melody = seq(&rising);
+        // A tune that keeps returning to the same few figures can be reordered many ways.
+        let figures: Vec<i32> = [60, 62, 64, 62, 60, 64, 62, 60, 62, 64]
+            .iter()
+            .cycle()
+            .take(40)
+            .copied()
+            .zip((0..40).map(|i| (i % 7) as i32 % 3))
+            .map(|(p, shift)| p + shift)
+            .collect();
+        let busy = seq(&figures);
+        let s = summary(&melody, &busy);
+        assert_eq!(s.distinct_a, 1);
+        assert!(s.distinct_b > 20, "{}", s.distinct_b);
+        assert!(s.few_orders());
+        let s = summary(&busy, &busy);
+        assert!(!s.few_orders(), "{} {}", s.distinct_a, s.distinct_b);
+    }
 }

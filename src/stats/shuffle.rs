@@ -113,13 +113,15 @@ fn repitch(notes: &[SeqNote], order: &[usize]) -> Sequence {
 }
 
 #[cfg(test)]
-mod tests {
+pub(super) mod tests {
     use super::*;
     use crate::features::MetricLevel;
     use rand::SeedableRng;
     use rand_chacha::ChaCha8Rng;
 
-    fn seq(pitches: &[i32]) -> Sequence {
+    /// A melody of these pitches with a repeating rhythm (1, 2, 3 beats), for the tests of
+    /// this module and of the null model.
+    pub(in crate::stats) fn seq(pitches: &[i32]) -> Sequence {
         let notes = pitches
             .iter()
             .enumerate()
