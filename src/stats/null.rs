@@ -211,7 +211,7 @@ mod tests {
             .cycle()
             .take(40)
             .copied()
-            .zip((0..40).map(|i| (i % 7) as i32 % 3))
+            .zip((0..40).map(|i: i32| (i % 7) % 3))
             .map(|(p, shift)| p + shift)
             .collect();
         let busy = seq(&figures);
