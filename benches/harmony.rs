@@ -1,8 +1,9 @@
 //! Harmony stages on three-minute inputs: the chroma cross-recurrence comparison (Qmax with 99
 //! block shuffles) of two chromagrams, and the multiscale subsequence DTW of a recording's
 //! chromagram against a score's. Inputs are deterministic pseudo-random chord sequences at the
-//! analysis hop (23.2 ms), 180 s each; the second is the first's last two thirds transposed, at
-//! 1.1 times the tempo, followed by other chords.
+//! analysis hop (23.2 ms), 180 s each, with quarter notes at 120 bpm; the second is the first's
+//! last two thirds transposed, at 1.1 times the tempo, followed by other chords. The Qmax
+//! comparison is timed on the beat grid (the default) and on fixed-time frames.
 #![allow(clippy::unwrap_used, clippy::expect_used, missing_docs)]
 
 use collatio::align::harmony::{compare_harmony, HarmonyParams};
@@ -29,6 +30,8 @@ fn chords(seed: u64, n: usize) -> Vec<(usize, bool, f64)> {
         .collect()
 }
 
+/// The chromagram of `chords` moved up `shift` semitones at `speed` times the tempo, with
+/// quarter notes of 0.5 s / `speed` (120 bpm at speed 1).
 fn layer(chords: &[(usize, bool, f64)], shift: usize, speed: f64, seconds: f64) -> ChromaLayer {
     let mut frames = Vec::new();
     let mut onsets = Vec::new();
@@ -52,6 +55,10 @@ fn layer(chords: &[(usize, bool, f64)], shift: usize, speed: f64, seconds: f64) 
         source: "notes",
         frames,
         onsets,
+        beats: (0..)
+            .map(|k| f64::from(k) * 0.5 / speed)
+            .take_while(|t| *t <= seconds + 0.5)
+            .collect(),
     }
 }
 
@@ -65,6 +72,13 @@ fn bench(c: &mut Criterion) {
     group.sample_size(10);
     group.bench_function("qmax_with_99_shuffles", |bench| {
         bench.iter(|| compare_harmony(&a, &b, &HarmonyParams::default()))
+    });
+    let fixed_frames = HarmonyParams {
+        per_beat: 0,
+        ..HarmonyParams::default()
+    };
+    group.bench_function("qmax_with_99_shuffles_fixed_frames", |bench| {
+        bench.iter(|| compare_harmony(&a, &b, &fixed_frames))
     });
     group.bench_function("dtw_score_to_recording", |bench| {
         bench.iter(|| synchronise(&a, &b, &SyncParams::default()))

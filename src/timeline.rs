@@ -486,6 +486,11 @@ pub struct ChromaLayer {
     /// recording, or the summed power of the notes starting in the frame of a score.
     #[serde(skip)]
     pub onsets: Vec<f32>,
+    /// Times of the piece's quarter notes in seconds, from its tempo map (a recording's
+    /// follows its tracked beats); empty when unknown. The harmonic comparison averages
+    /// chroma between them, so that its states span musical time rather than seconds.
+    #[serde(skip)]
+    pub beats: Vec<f64>,
 }
 
 impl ChromaLayer {

@@ -69,17 +69,144 @@ fn the_shared_progression_of_two_arrangements_is_found_with_its_bars() {
     assert!(best.empirical_p <= 0.01);
 }
 
-#[test]
-fn unrelated_arrangements_share_no_harmonic_passage() {
-    for (a, b) in [
-        ("larkfield.ogg", "glimmerfen.ogg"),
-        ("larkfield.ogg", "weirmoor.ogg"),
-        ("cinderpath_rearranged.ogg", "glimmerfen.ogg"),
-        ("weirmoor.ogg", "tidewrack.ogg"),
-    ] {
-        let result = compare_harmony(&chroma(a), &chroma(b), &HarmonyParams::default());
-        assert!(result.matches.is_empty(), "{a} / {b}: {:?}", result.matches);
+/// A fixture's bar starts, bar length in seconds and chord per bar (root pitch class and
+/// quality, a dominant seventh counted as major) from its `truth.json`.
+struct ChordTruth {
+    bars: Vec<f64>,
+    bar_seconds: f64,
+    chords: Vec<(i64, String)>,
+}
+
+fn chord_truth(piece: &str) -> ChordTruth {
+    let text = std::fs::read_to_string(fixture(&format!("{piece}.truth.json"))).unwrap();
+    let truth: Value = serde_json::from_str(&text).unwrap();
+    let bars = bar_starts(piece);
+    let chords = truth["chords"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| {
+            let quality = c[1].as_str().unwrap();
+            let quality = if quality == "dom7" { "maj" } else { quality };
+            (c[0].as_i64().unwrap(), quality.to_string())
+        })
+        .collect();
+    ChordTruth {
+        bar_seconds: bars[1] - bars[0],
+        bars,
+        chords,
     }
+}
+
+/// Every stretch of at least `min_bars` bars over which B's chords, moved up `shift`
+/// semitones, are A's: (first bar of A, first bar of B, bars, shift), bars counted from 0.
+fn shared_progressions(a: &ChordTruth, b: &ChordTruth, min_bars: usize) -> Vec<[usize; 4]> {
+    let mut found = Vec::new();
+    for shift in 0..12 {
+        let same = |i: usize, j: usize| {
+            a.chords[i].1 == b.chords[j].1 && a.chords[i].0 == (b.chords[j].0 + shift as i64) % 12
+        };
+        for i in 0..a.chords.len() {
+            for j in 0..b.chords.len() {
+                if i > 0 && j > 0 && same(i - 1, j - 1) {
+                    continue;
+                }
+                let mut length = 0;
+                while i + length < a.chords.len()
+                    && j + length < b.chords.len()
+                    && same(i + length, j + length)
+                {
+                    length += 1;
+                }
+                if length >= min_bars {
+                    found.push([i, j, length, shift]);
+                }
+            }
+        }
+    }
+    found
+}
+
+/// The five arrangements have unrelated melodies but, like much tonal music, share chord
+/// progressions: glimmerfen and weirmoor run through the same eleven bars of chords a tone
+/// apart, larkfield and tidewrack share seven bars, and so on (the chord lists in the
+/// fixtures' truth files, written by `make_arrangements.py` with the MIDI files). Over all ten
+/// pairs, as scores and as recordings in every combination, each harmonic passage reported
+/// must lie on such a shared progression (at least three bars), at the transposition
+/// reported: more than half of the passage on both sides inside the stretch. Recall is
+/// printed and kept from falling: shared stretches of five bars or more are found 9 of 20
+/// times at the defaults (5 of 20 with fixed-time instead of beat-synchronous frames; the
+/// misses are mostly pairs of different metre or tempi far apart, and diatonic sequences whose
+/// block-shuffled copies recur as well, so their p-values stay above 0.05).
+#[test]
+fn harmonic_passages_lie_on_shared_chord_progressions() {
+    let names = [
+        "larkfield",
+        "glimmerfen",
+        "weirmoor",
+        "tidewrack",
+        "cinderpath_rearranged",
+    ];
+    let (mut on_shared, mut elsewhere, mut long_found, mut long_total) = (0, 0, 0, 0);
+    for (k, a_name) in names.iter().enumerate() {
+        for b_name in &names[k + 1..] {
+            let (ta, tb) = (chord_truth(a_name), chord_truth(b_name));
+            let shared = shared_progressions(&ta, &tb, 3);
+            for (ea, eb) in [
+                ("musicxml", "musicxml"),
+                ("ogg", "ogg"),
+                ("musicxml", "ogg"),
+                ("ogg", "musicxml"),
+            ] {
+                let result = compare_harmony(
+                    &chroma(&format!("{a_name}.{ea}")),
+                    &chroma(&format!("{b_name}.{eb}")),
+                    &HarmonyParams::default(),
+                );
+                // The reported index moves B into A's key; the truth's shift moves B's chords
+                // onto A's, the other way round.
+                let shift = (-result.transposition_semitones).rem_euclid(12) as usize;
+                let mut hit = vec![false; shared.len()];
+                for m in &result.matches {
+                    let mut inside = false;
+                    for (h, &[i, j, bars, s]) in shared.iter().enumerate() {
+                        let a_span = [ta.bars[i], ta.bars[i] + bars as f64 * ta.bar_seconds];
+                        let b_span = [tb.bars[j], tb.bars[j] + bars as f64 * tb.bar_seconds];
+                        let overlap = |x: [f64; 2], y: [f64; 2]| {
+                            (x[1].min(y[1]) - x[0].max(y[0])).max(0.0) > 0.5 * (x[1] - x[0])
+                        };
+                        if s == shift
+                            && overlap(m.a_seconds, a_span)
+                            && overlap(m.b_seconds, b_span)
+                        {
+                            inside = true;
+                            hit[h] = true;
+                        }
+                    }
+                    if inside {
+                        on_shared += 1;
+                    } else {
+                        elsewhere += 1;
+                        println!(
+                            "{a_name}.{ea} / {b_name}.{eb}: not on a shared progression: {m:?}"
+                        );
+                    }
+                }
+                for (h, &[_, _, bars, _]) in shared.iter().enumerate() {
+                    if bars >= 5 {
+                        long_total += 1;
+                        long_found += usize::from(hit[h]);
+                    }
+                }
+            }
+        }
+    }
+    println!(
+        "harmonic passages: {on_shared} on shared progressions, {elsewhere} elsewhere; shared \
+         stretches of 5+ bars found {long_found} of {long_total}"
+    );
+    assert_eq!(elsewhere, 0);
+    assert!(long_found >= 9, "{long_found} of {long_total}");
 }
 
 #[test]

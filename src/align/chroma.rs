@@ -16,8 +16,10 @@ use crate::timeline::ChromaLayer;
 /// A chroma sequence ready for comparison: unit-length frames on a fixed step.
 #[derive(Debug, Clone)]
 pub struct ChromaFeatures {
-    /// Seconds between frames.
+    /// Seconds between frames (the mean spacing for frames on a beat grid).
     pub hop_seconds: f64,
+    /// Time of each frame in seconds: the middle of the stretch it averages.
+    pub times: Vec<f64>,
     /// Unit-length (or all-zero) 12-bin frames; pitch class 0 is C.
     pub frames: Vec<[f32; 12]>,
     /// Onset activity per frame: the largest onset peak ([`onset_peaks`]) in the window, then
@@ -32,42 +34,119 @@ impl ChromaFeatures {
         let step = step.max(1);
         let window = window.max(1);
         let n = layer.frames.len();
-        let count = n.div_ceil(step);
-        let mut frames = Vec::with_capacity(count);
-        let mut onsets = Vec::with_capacity(count);
         let peaks = onset_peaks(&layer.onsets);
-        for k in 0..count {
+        let mut features = ChromaFeatures::empty(layer.hop_seconds * step as f64);
+        for k in 0..n.div_ceil(step) {
             // Window centred on the output frame's own time, k · step input frames.
-            let centre = k * step;
-            let lo = centre.saturating_sub(window / 2);
+            let lo = (k * step).saturating_sub(window / 2);
             let hi = (lo + window).min(n);
-            let mut sum = [0f32; 12];
-            for frame in &layer.frames[lo..hi] {
-                for (s, v) in sum.iter_mut().zip(frame) {
-                    *s += *v;
-                }
-            }
-            let mut out = [0f32; 12];
-            let scale = 1.0 / (hi - lo).max(1) as f32;
-            for (o, s) in out.iter_mut().zip(&sum) {
-                *o = (1.0 + 10.0 * s * scale).ln();
-            }
-            normalise(&mut out);
-            frames.push(out);
-            let onset = peaks
-                .get(lo..hi.min(peaks.len()))
-                .unwrap_or(&[])
-                .iter()
-                .copied()
-                .fold(0.0f32, f32::max);
-            onsets.push(onset);
+            features.push(layer, &peaks, lo, hi, (k * step) as f64 * layer.hop_seconds);
         }
-        scale_onsets(&mut onsets);
+        features.finish()
+    }
+
+    /// Features on the layer's quarter-note grid ([`ChromaLayer::beats`]): every quarter is
+    /// split into `per_beat` equal parts, and frame `k` averages the layer's frames over
+    /// `window` parts around part `k` (one part: the part itself; two: from the middle of
+    /// the part before to the middle of the next, and so on). Beat-synchronous chroma, as
+    /// Serrà et al. (2009) compare it, makes a state a stretch of musical time whatever the
+    /// tempo. `None` when the layer lists fewer than three quarters.
+    pub fn on_beats(layer: &ChromaLayer, per_beat: usize, window: usize) -> Option<ChromaFeatures> {
+        if layer.beats.len() < 3 || layer.hop_seconds <= 0.0 {
+            return None;
+        }
+        let per_beat = per_beat.max(1);
+        let end = layer.seconds();
+        let mut grid: Vec<f64> = Vec::with_capacity(layer.beats.len() * per_beat);
+        for pair in layer.beats.windows(2) {
+            let length = pair[1] - pair[0];
+            grid.extend((0..per_beat).map(|j| pair[0] + length * j as f64 / per_beat as f64));
+        }
+        if let Some(last) = layer.beats.last() {
+            grid.push(*last);
+        }
+        grid.retain(|t| *t < end - 1e-9);
+        if grid.len() < 3 {
+            return None;
+        }
+        let window = window.max(1);
+        let frame_of =
+            |t: f64| ((t / layer.hop_seconds).round().max(0.0) as usize).min(layer.frames.len());
+        // Each part's start and end; the last part ends with the layer.
+        let edge = |k: usize| grid.get(k).copied().unwrap_or(end);
+        let parts = grid.len();
+        let mut features = ChromaFeatures::empty(0.0);
+        let peaks = onset_peaks(&layer.onsets);
+        for k in 0..parts {
+            let (lo_t, hi_t) = if window % 2 == 1 {
+                let half = window / 2;
+                (
+                    edge(k.saturating_sub(half)),
+                    edge((k + 1 + half).min(parts)),
+                )
+            } else {
+                let half = window / 2;
+                let start = |i: usize| 0.5 * (edge(i) + edge(i + 1));
+                let lo = if k >= half { start(k - half) } else { edge(0) };
+                (lo, start((k + half).min(parts - 1)).max(lo))
+            };
+            let (lo, hi) = (frame_of(lo_t), frame_of(hi_t).max(frame_of(lo_t) + 1));
+            features.push(
+                layer,
+                &peaks,
+                lo,
+                hi.min(layer.frames.len()),
+                0.5 * (lo_t + hi_t),
+            );
+        }
+        let n = features.times.len();
+        features.hop_seconds = if n > 1 {
+            (features.times[n - 1] - features.times[0]) / (n - 1) as f64
+        } else {
+            layer.hop_seconds
+        };
+        Some(features.finish())
+    }
+
+    fn empty(hop_seconds: f64) -> ChromaFeatures {
         ChromaFeatures {
-            hop_seconds: layer.hop_seconds * step as f64,
-            frames,
-            onsets,
+            hop_seconds,
+            times: Vec::new(),
+            frames: Vec::new(),
+            onsets: Vec::new(),
         }
+    }
+
+    /// Appends the compressed, normalised mean of the layer's frames `lo..hi` at `time`.
+    fn push(&mut self, layer: &ChromaLayer, peaks: &[f32], lo: usize, hi: usize, time: f64) {
+        let hi = hi.min(layer.frames.len());
+        let lo = lo.min(hi);
+        let mut sum = [0f32; 12];
+        for frame in &layer.frames[lo..hi] {
+            for (s, v) in sum.iter_mut().zip(frame) {
+                *s += *v;
+            }
+        }
+        let mut out = [0f32; 12];
+        let scale = 1.0 / (hi - lo).max(1) as f32;
+        for (o, s) in out.iter_mut().zip(&sum) {
+            *o = (1.0 + 10.0 * s * scale).ln();
+        }
+        normalise(&mut out);
+        self.frames.push(out);
+        self.times.push(time);
+        let onset = peaks
+            .get(lo..hi.min(peaks.len()))
+            .unwrap_or(&[])
+            .iter()
+            .copied()
+            .fold(0.0f32, f32::max);
+        self.onsets.push(onset);
+    }
+
+    fn finish(mut self) -> ChromaFeatures {
+        scale_onsets(&mut self.onsets);
+        self
     }
 
     /// Number of frames.
@@ -87,6 +166,7 @@ impl ChromaFeatures {
         let s = shift.rem_euclid(12) as usize;
         ChromaFeatures {
             hop_seconds: self.hop_seconds,
+            times: self.times.clone(),
             onsets: self.onsets.clone(),
             frames: self
                 .frames
@@ -216,6 +296,7 @@ mod tests {
             source: "notes",
             frames,
             onsets: Vec::new(),
+            beats: Vec::new(),
         }
     }
 
@@ -242,6 +323,36 @@ mod tests {
         }
         assert_eq!(signed_shift(3), 3);
         assert_eq!(signed_shift(9), -3);
+    }
+
+    #[test]
+    fn beat_synchronous_features_do_not_depend_on_the_tempo() {
+        // I–IV–V–I in C, one chord per four quarters, at 120 bpm and at 80 bpm (quarters of
+        // 0.5 s and 0.75 s; frames of 0.1 s): on the beat grid both give the same frames.
+        let at_tempo = |quarter: f64| {
+            let chord_frames = (4.0 * quarter / 0.1).round() as usize;
+            let mut l = layer(
+                [0, 5, 7, 0]
+                    .iter()
+                    .flat_map(|r| std::iter::repeat_n(triad(*r), chord_frames))
+                    .collect(),
+            );
+            l.beats = (0..=16).map(|k| k as f64 * quarter).collect();
+            ChromaFeatures::on_beats(&l, 2, 1).unwrap()
+        };
+        let (fast, slow) = (at_tempo(0.5), at_tempo(0.75));
+        assert_eq!(fast.len(), 32);
+        assert_eq!(slow.len(), 32);
+        for (k, (x, y)) in fast.frames.iter().zip(&slow.frames).enumerate() {
+            assert!((dot(x, y) - 1.0).abs() < 1e-5, "frame {k}");
+        }
+        // Frame times are the middles of the half quarters.
+        assert!((slow.times[3] - 3.5 * 0.375).abs() < 1e-9);
+        assert!((slow.hop_seconds - 0.375).abs() < 1e-9);
+        // Fewer than three quarters: no grid.
+        let mut short = layer(vec![triad(0); 10]);
+        short.beats = vec![0.0, 0.5];
+        assert!(ChromaFeatures::on_beats(&short, 2, 2).is_none());
     }
 
     #[test]

@@ -2,9 +2,11 @@
 //!
 //! Method (Serrà, Serra & Andrzejak 2009, "Cross recurrence quantification for cover song
 //! identification", New Journal of Physics 11):
-//! 1. Both chromagrams become [`ChromaFeatures`] (`step` analysis frames per feature frame,
-//!    averaged over `window`); B is moved into A's key by the optimal transposition index
-//!    (Serrà et al. 2008); the two best indices are tried and the stronger result kept.
+//! 1. Both chromagrams become beat-synchronous [`ChromaFeatures`] (`per_beat` frames per
+//!    quarter note of each piece, each averaging `beat_window` of them; fixed-time frames of
+//!    `step` analysis frames averaged over `window` when a piece has no beat grid); B is
+//!    moved into A's key by the optimal transposition index (Serrà et al. 2008); the two best
+//!    indices are tried and the stronger result kept.
 //! 2. Delay embedding: the state at frame `i` is the concatenation of frames `i, i + τ, …,
 //!    i + (m − 1)τ`, so that a state is a short progression rather than one chord.
 //! 3. Binary cross recurrence plot: `R(i, j) = 1` when B's state `j` is among the `κ` nearest
@@ -27,10 +29,10 @@
 //! passages, collatio uses a sparser plot and a dearer gap (κ = 0.05, γe = 2) plus an absolute
 //! floor on the similarity of recurrent states (mean cosine 0.7), which keep a path from
 //! wandering through unrelated music on chance recurrences. These values, the frame rate and
-//! the embedding (m = 8 frames of about 0.19 s averaged over 0.74 s, τ = 1, so a state spans
-//! about two seconds) were chosen on the arrangement fixtures (`tests/arrangements.rs`):
-//! the shared progression of two arrangements is found with its bars and no passage is
-//! reported between unrelated pieces.
+//! the embedding (m = 8 half-quarter frames, τ = 1, so a state spans four quarters) were
+//! chosen on the arrangement fixtures (`tests/arrangements.rs`): the shared progression of two
+//! arrangements is found with its bars, and every passage reported between the other pairs
+//! lies on a chord progression they share.
 
 use super::chroma::{transposition_ranking, ChromaFeatures};
 use crate::timeline::ChromaLayer;
@@ -46,9 +48,18 @@ const TRANSPOSITIONS_TRIED: usize = 2;
 /// Parameters of the harmonic comparison.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct HarmonyParams {
-    /// Analysis frames per feature frame. Default 8 (≈ 0.19 s at the 23.2 ms analysis hop).
+    /// Feature frames per quarter note when both pieces list their quarters
+    /// ([`crate::timeline::ChromaLayer::beats`]): beat-synchronous features. Default 2; 0
+    /// uses fixed-time frames (`step`, `window`) instead.
+    pub per_beat: usize,
+    /// Feature frames (parts of a quarter) averaged into one, on the beat grid. Default 2
+    /// (one quarter).
+    pub beat_window: usize,
+    /// Analysis frames per feature frame without a beat grid. Default 8 (≈ 0.19 s at the
+    /// 23.2 ms analysis hop).
     pub step: usize,
-    /// Analysis frames averaged into one feature frame. Default 32 (≈ 0.74 s).
+    /// Analysis frames averaged into one feature frame without a beat grid. Default 32
+    /// (≈ 0.74 s).
     pub window: usize,
     /// Embedding dimension m (feature frames per state). Default 8.
     pub embedding: usize,
@@ -84,6 +95,8 @@ pub struct HarmonyParams {
 impl Default for HarmonyParams {
     fn default() -> Self {
         HarmonyParams {
+            per_beat: 2,
+            beat_window: 2,
             step: 8,
             window: 32,
             embedding: 8,
@@ -163,9 +176,7 @@ pub fn compare_harmony(
     b: &ChromaLayer,
     params: &HarmonyParams,
 ) -> HarmonicComparison {
-    let step = coarse_enough(a, b, params);
-    let fa = ChromaFeatures::from_layer(a, step, params.window.max(step));
-    let fb = ChromaFeatures::from_layer(b, step, params.window.max(step));
+    let (fa, fb, window_frames) = features(a, b, params);
     // The candidate index whose plot holds the higher Qmax; only that one is tested
     // against the shuffles.
     let m = params.embedding.max(1);
@@ -189,7 +200,45 @@ pub fn compare_harmony(
         }
     }
     let (index, plot) = chosen.map_or((0, None), |(i, _, p)| (i, p));
-    compare_at(&fa, &fb.rotated(index), index, plot, params)
+    compare_at(&fa, &fb.rotated(index), index, plot, window_frames, params)
+}
+
+/// Both pieces' features: on their quarter-note grids when both have one and the plot stays
+/// under `max_cells`, else on fixed-time frames; with the frames each averages.
+fn features(
+    a: &ChromaLayer,
+    b: &ChromaLayer,
+    params: &HarmonyParams,
+) -> (ChromaFeatures, ChromaFeatures, f64) {
+    if params.per_beat > 0 {
+        let on_beats = |layer| ChromaFeatures::on_beats(layer, params.per_beat, params.beat_window);
+        if let (Some(fa), Some(fb)) = (on_beats(a), on_beats(b)) {
+            if fa.len() * fb.len() <= params.max_cells.max(1) {
+                return (fa, fb, params.beat_window.max(1) as f64);
+            }
+        }
+    }
+    let step = coarse_enough(a, b, params);
+    let window = params.window.max(step);
+    (
+        ChromaFeatures::from_layer(a, step, window),
+        ChromaFeatures::from_layer(b, step, window),
+        window as f64 / step as f64,
+    )
+}
+
+/// Time at a fractional frame index, interpolated between frame times (extrapolated by
+/// `hop` past the last).
+fn time_at(times: &[f64], hop: f64, index: f64) -> f64 {
+    let Some(&last) = times.last() else {
+        return index * hop;
+    };
+    let k = index.floor().max(0.0) as usize;
+    let fraction = index - k as f64;
+    match (times.get(k), times.get(k + 1)) {
+        (Some(t0), Some(t1)) => t0 + fraction * (t1 - t0),
+        _ => last + (index - (times.len() - 1) as f64) * hop,
+    }
 }
 
 /// The step that keeps the plot under `max_cells`.
@@ -207,13 +256,14 @@ fn compare_at(
     fb: &ChromaFeatures,
     index: i32,
     plot: Option<Plot>,
+    window_frames: f64,
     params: &HarmonyParams,
 ) -> HarmonicComparison {
     let hop = fa.hop_seconds;
     let empty = HarmonicComparison {
         transposition_semitones: super::chroma::signed_shift(index),
         frame_seconds: hop,
-        window_seconds: hop * params.window.max(params.step) as f64 / params.step.max(1) as f64,
+        window_seconds: hop * window_frames,
         recurrence_rate: 0.0,
         null_max: 0.0,
         matches: Vec::new(),
@@ -246,14 +296,10 @@ fn compare_at(
         // spans `span + 1` frames, and one that only half overlaps the shared stretch can
         // still count as recurrent, so its edges would overstate the passage.
         let centre = (span + 1) as f64 / 2.0;
-        let a_seconds = [
-            (first.0 as f64 + centre) * hop,
-            (last.0 as f64 + centre) * hop,
-        ];
-        let b_seconds = [
-            (first.1 as f64 + centre) * hop,
-            (last.1 as f64 + centre) * hop,
-        ];
+        let a_time = |i: usize| time_at(&fa.times, fa.hop_seconds, i as f64 + centre);
+        let b_time = |j: usize| time_at(&fb.times, fb.hop_seconds, j as f64 + centre);
+        let a_seconds = [a_time(first.0), a_time(last.0)];
+        let b_seconds = [b_time(first.1), b_time(last.1)];
         let exceed = null.iter().filter(|x| **x >= score).count();
         let empirical_p = (1 + exceed) as f64 / (null.len() + 1) as f64;
         if a_seconds[1] - a_seconds[0] < params.min_seconds || empirical_p > params.max_p {
@@ -271,8 +317,8 @@ fn compare_at(
             .sum::<f64>()
             / path.len() as f64;
         let recurrences = path.iter().filter(|&&(i, j)| plot.at(i, j)).count();
-        let length_a = (last.0 - first.0 + 1) as f64;
-        let length_b = (last.1 - first.1 + 1) as f64;
+        let length_a = (a_seconds[1] - a_seconds[0]).max(1e-9);
+        let length_b = b_seconds[1] - b_seconds[0];
         matches.push(HarmonicMatch {
             a_seconds,
             b_seconds,
@@ -283,7 +329,12 @@ fn compare_at(
             duration_ratio: length_b / length_a,
             path: path
                 .iter()
-                .map(|&(i, j)| [i as f64 * hop, j as f64 * hop])
+                .map(|&(i, j)| {
+                    [
+                        time_at(&fa.times, fa.hop_seconds, i as f64),
+                        time_at(&fb.times, fb.hop_seconds, j as f64),
+                    ]
+                })
                 .collect(),
         });
     }
@@ -575,6 +626,7 @@ mod tests {
             source: "notes",
             frames,
             onsets: Vec::new(),
+            beats: Vec::new(),
         }
     }
 

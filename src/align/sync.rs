@@ -297,6 +297,7 @@ fn coarsen(f: &ChromaFeatures, factor: usize) -> ChromaFeatures {
         .collect();
     ChromaFeatures {
         hop_seconds: f.hop_seconds * factor as f64,
+        times: f.times.iter().step_by(factor.max(1)).copied().collect(),
         frames,
         onsets,
     }
@@ -459,6 +460,7 @@ mod tests {
             source: "notes",
             frames,
             onsets: Vec::new(),
+            beats: Vec::new(),
         }
     }
 

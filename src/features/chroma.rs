@@ -45,25 +45,49 @@ const MAX_FRAMES: usize = 6 * 3600 * 44;
 /// The chroma of a piece: the measured one for a recording, otherwise derived from the notes
 /// of every pitched part (not only the selected melody).
 pub fn chroma_of(piece: &Piece) -> ChromaLayer {
-    if let Some(layer) = &piece.chroma {
-        return layer.clone();
+    let layer = match &piece.chroma {
+        Some(layer) => layer.clone(),
+        None => chroma_of_notes(
+            piece
+                .parts
+                .iter()
+                .filter(|p| !p.percussion)
+                .flat_map(|p| p.notes.iter()),
+        ),
+    };
+    with_beats(layer, piece)
+}
+
+/// Most quarter notes listed in [`ChromaLayer::beats`] (two days at 120 bpm).
+const MAX_BEATS: usize = 2 * 24 * 3600 * 2;
+
+/// The layer with its piece's quarter-note times up to one quarter past its end.
+fn with_beats(mut layer: ChromaLayer, piece: &Piece) -> ChromaLayer {
+    let quarter = i64::from(piece.tempo.resolution.max(1));
+    let end = layer.seconds();
+    let mut beats = Vec::new();
+    for k in 0..MAX_BEATS as i64 {
+        let t = piece.tempo.seconds_at(k * quarter).0;
+        if !t.is_finite() || beats.last().is_some_and(|last| t <= *last) {
+            break;
+        }
+        beats.push(t);
+        if t > end {
+            break;
+        }
     }
-    chroma_of_notes(
-        piece
-            .parts
-            .iter()
-            .filter(|p| !p.percussion)
-            .flat_map(|p| p.notes.iter()),
-    )
+    layer.beats = beats;
+    layer
 }
 
 /// The chroma of a piece's selected melody alone (the measured chroma for a recording): what
 /// a recording of only that line would show.
 pub fn melody_chroma_of(piece: &Piece) -> ChromaLayer {
-    if let Some(layer) = &piece.chroma {
-        return layer.clone();
-    }
-    chroma_of_notes(piece.melody.iter())
+    let layer = match &piece.chroma {
+        Some(layer) => layer.clone(),
+        None => chroma_of_notes(piece.melody.iter()),
+    };
+    with_beats(layer, piece)
 }
 
 /// The chroma of a set of notes (see the module documentation).
@@ -113,5 +137,6 @@ fn chroma_of_notes<'a>(notes: impl Iterator<Item = &'a Note> + Clone) -> ChromaL
         source: "notes",
         frames,
         onsets,
+        beats: Vec::new(),
     }
 }

@@ -515,6 +515,7 @@ fn chroma_layer(decoded: &Decoded, analysis: &Analysis) -> ChromaLayer {
         source: "recording",
         frames,
         onsets,
+        beats: Vec::new(),
     }
 }
 
