@@ -486,9 +486,10 @@ pub struct ChromaLayer {
     /// recording, or the summed power of the notes starting in the frame of a score.
     #[serde(skip)]
     pub onsets: Vec<f32>,
-    /// Times of the piece's quarter notes in seconds, from its tempo map (a recording's
-    /// follows its tracked beats); empty when unknown. The harmonic comparison averages
-    /// chroma between them, so that its states span musical time rather than seconds.
+    /// Beat times in seconds: the quarter notes of a score's or MIDI file's tempo map, the
+    /// tracked beats of a recording (extended over its whole length); empty when unknown (a
+    /// recording without a steady beat). The harmonic comparison averages chroma between
+    /// them, so that its states span musical time rather than seconds.
     #[serde(skip)]
     pub beats: Vec<f64>,
 }

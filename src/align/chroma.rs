@@ -18,7 +18,8 @@ use crate::timeline::ChromaLayer;
 pub struct ChromaFeatures {
     /// Seconds between frames (the mean spacing for frames on a beat grid).
     pub hop_seconds: f64,
-    /// Time of each frame in seconds: the middle of the stretch it averages.
+    /// Time of each frame in seconds: the middle of the stretch it averages (for fixed-time
+    /// frames, the centre of the full window, even where the signal's ends clip it).
     pub times: Vec<f64>,
     /// Unit-length (or all-zero) 12-bin frames; pitch class 0 is C.
     pub frames: Vec<[f32; 12]>,
@@ -88,7 +89,12 @@ impl ChromaFeatures {
                 let half = window / 2;
                 let start = |i: usize| 0.5 * (edge(i) + edge(i + 1));
                 let lo = if k >= half { start(k - half) } else { edge(0) };
-                (lo, start((k + half).min(parts - 1)).max(lo))
+                let hi = if k + half < parts {
+                    start(k + half)
+                } else {
+                    end
+                };
+                (lo, hi.max(lo))
             };
             let (lo, hi) = (frame_of(lo_t), frame_of(hi_t).max(frame_of(lo_t) + 1));
             features.push(

@@ -26,7 +26,7 @@
 //!    p-value is `(1 + #{shuffled Qmax ≥ Q}) / (shuffles + 1)`.
 //!
 //! Serrà et al. (2009) used κ = 0.1, γo = 5 and γe = 0.5 to rank whole songs; to place
-//! passages, collatio uses a sparser plot and a dearer gap (κ = 0.05, γe = 2) plus an absolute
+//! passages, collatio uses a sparser plot and a dearer gap (κ = 0.07, γe = 2) plus an absolute
 //! floor on the similarity of recurrent states (mean cosine 0.7), which keep a path from
 //! wandering through unrelated music on chance recurrences. These values, the frame rate and
 //! the embedding (m = 8 half-quarter frames, τ = 1, so a state spans four quarters) were
@@ -65,7 +65,7 @@ pub struct HarmonyParams {
     pub embedding: usize,
     /// Embedding delay τ in feature frames. Default 1.
     pub delay: usize,
-    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.05.
+    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.07.
     pub neighbours: f64,
     /// Lowest mean cosine similarity of the frames of two states for them to count as
     /// recurrent, whatever their rank. Default 0.7.
@@ -101,7 +101,7 @@ impl Default for HarmonyParams {
             window: 32,
             embedding: 8,
             delay: 1,
-            neighbours: 0.05,
+            neighbours: 0.07,
             min_similarity: 0.7,
             gap_onset: 5.0,
             gap_extension: 2.0,
@@ -143,11 +143,14 @@ pub struct HarmonicComparison {
     /// B's key relative to A's by the optimal transposition index, folded to −5 … +6
     /// semitones.
     pub transposition_semitones: i32,
-    /// Seconds between feature frames.
+    /// Whether the features were beat-synchronous (on both pieces' quarter notes) rather
+    /// than fixed-time frames.
+    pub beat_synchronous: bool,
+    /// Seconds between feature frames in A (the mean on a beat grid).
     pub frame_seconds: f64,
-    /// Seconds of chroma averaged into each feature frame: passage edges are no sharper
-    /// than about half of it.
-    pub window_seconds: f64,
+    /// Seconds of chroma averaged into each feature frame, in A and in B: passage edges are
+    /// no sharper than about half of it.
+    pub window_seconds: [f64; 2],
     /// Share of all cells of the recurrence plot that are recurrent.
     pub recurrence_rate: f64,
     /// The largest Qmax among the shuffled plots (the level a passage must pass to reach the
@@ -176,7 +179,7 @@ pub fn compare_harmony(
     b: &ChromaLayer,
     params: &HarmonyParams,
 ) -> HarmonicComparison {
-    let (fa, fb, window_frames) = features(a, b, params);
+    let (fa, fb, window_frames, beat_synchronous) = features(a, b, params);
     // The candidate index whose plot holds the higher Qmax; only that one is tested
     // against the shuffles.
     let m = params.embedding.max(1);
@@ -200,21 +203,28 @@ pub fn compare_harmony(
         }
     }
     let (index, plot) = chosen.map_or((0, None), |(i, _, p)| (i, p));
-    compare_at(&fa, &fb.rotated(index), index, plot, window_frames, params)
+    let mut found = compare_at(&fa, &fb.rotated(index), index, plot, window_frames, params);
+    found.beat_synchronous = beat_synchronous;
+    found
 }
 
-/// Both pieces' features: on their quarter-note grids when both have one and the plot stays
-/// under `max_cells`, else on fixed-time frames; with the frames each averages.
+/// Both pieces' features: on their quarter-note grids when both have one long enough for a
+/// state and the plot stays under `max_cells`, else on fixed-time frames; with the frames
+/// each averages and whether they are beat-synchronous.
 fn features(
     a: &ChromaLayer,
     b: &ChromaLayer,
     params: &HarmonyParams,
-) -> (ChromaFeatures, ChromaFeatures, f64) {
+) -> (ChromaFeatures, ChromaFeatures, f64, bool) {
     if params.per_beat > 0 {
         let on_beats = |layer| ChromaFeatures::on_beats(layer, params.per_beat, params.beat_window);
+        let state = (params.embedding.max(1) - 1) * params.delay.max(1) + 1;
         if let (Some(fa), Some(fb)) = (on_beats(a), on_beats(b)) {
-            if fa.len() * fb.len() <= params.max_cells.max(1) {
-                return (fa, fb, params.beat_window.max(1) as f64);
+            if fa.len() > state
+                && fb.len() > state
+                && fa.len().saturating_mul(fb.len()) <= params.max_cells.max(1)
+            {
+                return (fa, fb, params.beat_window.max(1) as f64, true);
             }
         }
     }
@@ -224,6 +234,7 @@ fn features(
         ChromaFeatures::from_layer(a, step, window),
         ChromaFeatures::from_layer(b, step, window),
         window as f64 / step as f64,
+        false,
     )
 }
 
@@ -262,8 +273,9 @@ fn compare_at(
     let hop = fa.hop_seconds;
     let empty = HarmonicComparison {
         transposition_semitones: super::chroma::signed_shift(index),
+        beat_synchronous: false,
         frame_seconds: hop,
-        window_seconds: hop * window_frames,
+        window_seconds: [hop * window_frames, fb.hop_seconds * window_frames],
         recurrence_rate: 0.0,
         null_max: 0.0,
         matches: Vec::new(),
@@ -293,9 +305,10 @@ fn compare_at(
             }
         }
         // From the middle of the first matching state to the middle of the last: a state
-        // spans `span + 1` frames, and one that only half overlaps the shared stretch can
-        // still count as recurrent, so its edges would overstate the passage.
-        let centre = (span + 1) as f64 / 2.0;
+        // spans frames `i ..= i + span` (each timed at the middle of what it averages), and
+        // one that only half overlaps the shared stretch can still count as recurrent, so its
+        // edges would overstate the passage.
+        let centre = span as f64 / 2.0;
         let a_time = |i: usize| time_at(&fa.times, fa.hop_seconds, i as f64 + centre);
         let b_time = |j: usize| time_at(&fb.times, fb.hop_seconds, j as f64 + centre);
         let a_seconds = [a_time(first.0), a_time(last.0)];

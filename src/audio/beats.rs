@@ -10,12 +10,13 @@
 //! - **Tempo**: the autocorrelation `A` of the (mean-removed) envelope, weighted by a
 //!   log-Gaussian tempo prior `W(τ) = exp(−½ (log2(τ / τ0) / σ)²)` with `τ0 = 0.5 s` (120
 //!   bpm) and `σ = 1.4` octaves (Ellis 2007, *J. New Music Research* 36(1), §3.1), or
-//!   centred on the user's `tempo_hint` with `σ = 0.35` octaves. Each beat period `τ` between 0.25 and 2 s scores
-//!   `W(τ) · (A(τ) + max(½ A(2τ) + ¼ A(4τ), ½ A(3τ)))`, the multiples taken as the largest
-//!   `A` within one frame: like Ellis's duple and triple sums, the periods of two and four (or
-//!   three) beats confirm a beat, which the spacing of a syncopated figure (1.5 beats in a
-//!   dotted rhythm, often the single strongest lag of a melody) does not get. The best lag is
-//!   refined by parabolic interpolation.
+//!   centred on the user's `tempo_hint` with `σ = 0.35` octaves. Each beat period `τ`
+//!   between 0.25 and 2 s (and within a third of a hint's period) that the envelope holds at
+//!   least twice scores `W(τ) · (A(τ) + max(½ A(2τ) + ¼ A(4τ), ½ A(3τ)))`, the multiples
+//!   taken as the largest `A` within one frame: like Ellis's duple and triple sums, the
+//!   periods of two and four (or three) beats confirm a beat, which the spacing of a
+//!   syncopated figure (1.5 beats in a dotted rhythm, often the single strongest lag of a
+//!   melody) does not get. The best lag is refined by parabolic interpolation.
 //!   *Deviation*: Ellis adds the prior-weighted values at the multiples; here the prior weighs
 //!   the candidate period once, so a period's multiples do not pull the estimate towards
 //!   faster tempos.
@@ -156,15 +157,20 @@ pub fn estimate_period(onset: &[f32], frame_rate: f64, options: &BeatOptions) ->
         return Some(60.0 * frame_rate / bpm);
     }
     let n = onset.len();
-    let min_lag = (0.25 * frame_rate).floor().max(1.0) as usize;
+    let hint = options.tempo_hint.filter(|b| b.is_finite() && *b > 0.0);
+    // Beat periods from 0.25 to 2 s (240 to 30 bpm), widened to a third either side of a
+    // hint outside that range.
+    let hinted = hint.map(|bpm| 60.0 / bpm);
+    let shortest = hinted.map_or(0.25, |p| (0.75 * p).min(0.25));
+    let longest = hinted.map_or(2.0, |p| (1.33 * p).max(2.0));
+    let min_lag = (shortest * frame_rate).floor().max(1.0) as usize;
     // A period is only seen when the envelope holds at least two of it (three beats).
-    let max_lag = ((2.0 * frame_rate).ceil() as usize).min(n.saturating_sub(1) / 2);
+    let max_lag = ((longest * frame_rate).ceil() as usize).min(n.saturating_sub(1) / 2);
     if max_lag <= min_lag + 1 {
         return None;
     }
     let mean = onset.iter().map(|v| f64::from(*v)).sum::<f64>() / n as f64;
     let centred: Vec<f64> = onset.iter().map(|v| f64::from(*v) - mean).collect();
-    let hint = options.tempo_hint.filter(|b| b.is_finite() && *b > 0.0);
     let (centre_bpm, sigma) = match hint {
         Some(bpm) => (bpm, options.hint_octaves),
         None => (options.prior_bpm, options.prior_octaves),

@@ -22,8 +22,9 @@
 //!
 //! Conventions, stated once for the whole module:
 //! - Analysis rate 22,050 Hz, mono (the mean of all channels).
-//! - Frame `k` is centred on sample `k · hop_length` (the first frame on sample 0; the signal
-//!   is taken as zero outside its ends), so its time is `k · hop_length / sample_rate` seconds.
+//! - Frame `k` is centred on sample `k · hop_length` (the first frame on sample 0; the STFT
+//!   takes the signal as zero outside its ends, the pitch tracker clips its frames to the
+//!   signal instead), so its time is `k · hop_length / sample_rate` seconds.
 //!   Default `hop_length` 512 samples ≈ 23.2 ms.
 //! - Pitch: MIDI 69 = A4 = `reference_hz` (440 Hz by default, ISO 16); cents are
 //!   1200 · log2(f2/f1). An unvoiced frame has f0 = 0 Hz.

@@ -167,8 +167,8 @@ impl std::fmt::Debug for Yin {
 
 impl Yin {
     /// Plans for frames of `frame_length` samples and lags `0 ..= max_lag` (the FFT size is
-    /// the power of two ≥ `frame_length + max_lag`, so the circular correlation equals the
-    /// linear one at every lag used).
+    /// the smallest `2^a·3^b·5^c` ≥ `frame_length + max_lag`, so the circular correlation
+    /// equals the linear one at every lag used).
     pub fn new(frame_length: usize, max_lag: usize) -> Yin {
         let max_lag = max_lag.max(2);
         let frame_length = frame_length.max(max_lag + 2);
@@ -201,10 +201,11 @@ impl Yin {
     /// (at most [`Yin::frame_length`] samples, the rest ignored), into `out`. A shorter frame
     /// — one clipped at the start or end of the signal — is analysed at its own length, so
     /// that no pair of samples compared lies outside the signal; only a frame shorter than
-    /// `max_lag + 2` samples is zero-padded to that length.
+    /// twice the longest lag is zero-padded to that length, so that every lag still compares
+    /// at least as many pairs as the lag itself.
     pub fn cmndf(&mut self, frame: &[f32], out: &mut Vec<f64>) {
         let (max_lag, size) = (self.max_lag, self.size);
-        let len = frame.len().clamp(max_lag + 2, self.frame_length);
+        let len = frame.len().max(2 * max_lag).min(self.frame_length);
         for (i, slot) in self.buf_frame.iter_mut().enumerate() {
             *slot = if i < len {
                 frame.get(i).copied().unwrap_or(0.0)

@@ -55,7 +55,10 @@ pub struct HarmonicEvidence {
     pub transposition_semitones: i32,
     /// The same as an interval and direction.
     pub transposition: String,
-    /// Seconds between chroma frames compared.
+    /// Whether the chroma was compared per beat (on both works' quarter notes) rather than
+    /// on fixed-time frames.
+    pub beat_synchronous: bool,
+    /// Seconds between chroma frames compared (in A; the mean on a beat grid).
     pub frame_seconds: f64,
     /// Share of recurrent cells in the cross recurrence plot.
     pub recurrence_rate: f64,
@@ -79,8 +82,8 @@ pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &Harmo
         .enumerate()
         .map(|(k, m)| HarmonicPassage {
             rank: k + 1,
-            a: side(a, m.a_seconds, found.window_seconds / 2.0),
-            b: side(b, m.b_seconds, found.window_seconds / 2.0),
+            a: side(a, m.a_seconds, found.window_seconds[0] / 2.0),
+            b: side(b, m.b_seconds, found.window_seconds[1] / 2.0),
             score: m.score,
             similarity: m.similarity,
             empirical_p: m.empirical_p,
@@ -108,6 +111,7 @@ pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &Harmo
         sources: [chroma_a.source, chroma_b.source],
         transposition_semitones: found.transposition_semitones,
         transposition: describe_transposition(found.transposition_semitones),
+        beat_synchronous: found.beat_synchronous,
         frame_seconds: found.frame_seconds,
         recurrence_rate: found.recurrence_rate,
         null_max: found.null_max,

@@ -38,6 +38,8 @@ pub struct SyncSummary {
     /// note of the score's melody of the same pitch class (after the key shift) within
     /// 100 ms.
     pub melody_agreement: f64,
+    /// How many notes that is ([`MIN_AGREEING_NOTES`] at least for `follows`).
+    pub agreeing_notes: usize,
     /// Mean chroma cost of the path over the mean cost of all pairs.
     pub cost_ratio: f64,
     /// The recording's key relative to the score's, semitones.
@@ -83,8 +85,9 @@ pub fn follow_score(
             })
         })
         .collect();
-    let agreement = melody_agreement(score, recording, &sync);
-    let follows = sync.follows && agreement >= MIN_MELODY_AGREEMENT;
+    let (agreement, agreeing) = melody_agreement(score, recording, &sync);
+    let follows =
+        sync.follows && agreement >= MIN_MELODY_AGREEMENT && agreeing >= MIN_AGREEING_NOTES;
     let bars_from_score = follows && bar_map.len() >= 2;
     // A path through another work places nothing: no bar map unless the recording follows.
     let bar_map = if follows { bar_map } else { Vec::new() };
@@ -97,6 +100,7 @@ pub fn follow_score(
         follows,
         cost_ratio: sync.cost_ratio,
         melody_agreement: agreement,
+        agreeing_notes: agreeing,
         transposition_semitones: sync.transposition_semitones,
         score_span_seconds: sync.score_span,
         bars_from_score,
@@ -113,15 +117,20 @@ pub fn follow_score(
 /// 0.49 of an unrelated pairing, as much as a true performance's may).
 pub const MIN_MELODY_AGREEMENT: f64 = 0.8;
 
+/// Fewest agreeing melody notes for a recording to count as a performance of the score: a
+/// clip of a note or two agrees with any score that has those pitches somewhere (two bars of
+/// quarter notes; our choice).
+pub const MIN_AGREEING_NOTES: usize = 8;
+
 /// Tolerance of [`melody_agreement`], seconds of the score.
 const AGREEMENT_TOLERANCE: f64 = 0.1;
 
-/// Share of the recording's melody notes whose onset, carried into the score's time by the
-/// path, falls within [`AGREEMENT_TOLERANCE`] of a score melody note sounding the same pitch
-/// class (after the key shift the alignment found).
-pub fn melody_agreement(score: &Piece, recording: &Piece, sync: &Synchronisation) -> f64 {
+/// Share (and number) of the recording's melody notes whose onset, carried into the score's
+/// time by the path, falls within [`AGREEMENT_TOLERANCE`] of a score melody note sounding the
+/// same pitch class (after the key shift the alignment found).
+pub fn melody_agreement(score: &Piece, recording: &Piece, sync: &Synchronisation) -> (f64, usize) {
     if recording.melody.is_empty() {
-        return 0.0;
+        return (0.0, 0);
     }
     let shift = sync.transposition_semitones;
     let agreeing = recording
@@ -141,7 +150,7 @@ pub fn melody_agreement(score: &Piece, recording: &Piece, sync: &Synchronisation
                 .any(|n| (n.pitch.0.round() as i64).rem_euclid(12) == class)
         })
         .count();
-    agreeing as f64 / recording.melody.len() as f64
+    (agreeing as f64 / recording.melody.len() as f64, agreeing)
 }
 
 /// Replaces the recording's bars with the score's bars the path reaches, and gives each note

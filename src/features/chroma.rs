@@ -45,23 +45,26 @@ const MAX_FRAMES: usize = 6 * 3600 * 44;
 /// The chroma of a piece: the measured one for a recording, otherwise derived from the notes
 /// of every pitched part (not only the selected melody).
 pub fn chroma_of(piece: &Piece) -> ChromaLayer {
-    let layer = match &piece.chroma {
+    match &piece.chroma {
         Some(layer) => layer.clone(),
-        None => chroma_of_notes(
-            piece
-                .parts
-                .iter()
-                .filter(|p| !p.percussion)
-                .flat_map(|p| p.notes.iter()),
+        None => with_beats(
+            chroma_of_notes(
+                piece
+                    .parts
+                    .iter()
+                    .filter(|p| !p.percussion)
+                    .flat_map(|p| p.notes.iter()),
+            ),
+            piece,
         ),
-    };
-    with_beats(layer, piece)
+    }
 }
 
 /// Most quarter notes listed in [`ChromaLayer::beats`] (two days at 120 bpm).
 const MAX_BEATS: usize = 2 * 24 * 3600 * 2;
 
-/// The layer with its piece's quarter-note times up to one quarter past its end.
+/// The layer with its piece's quarter-note times up to one quarter past its end (none when
+/// the tempo map is degenerate or the piece holds more than [`MAX_BEATS`] quarters).
 fn with_beats(mut layer: ChromaLayer, piece: &Piece) -> ChromaLayer {
     let quarter = i64::from(piece.tempo.resolution.max(1));
     let end = layer.seconds();
@@ -73,21 +76,20 @@ fn with_beats(mut layer: ChromaLayer, piece: &Piece) -> ChromaLayer {
         }
         beats.push(t);
         if t > end {
-            break;
+            layer.beats = beats;
+            return layer;
         }
     }
-    layer.beats = beats;
     layer
 }
 
 /// The chroma of a piece's selected melody alone (the measured chroma for a recording): what
 /// a recording of only that line would show.
 pub fn melody_chroma_of(piece: &Piece) -> ChromaLayer {
-    let layer = match &piece.chroma {
+    match &piece.chroma {
         Some(layer) => layer.clone(),
-        None => chroma_of_notes(piece.melody.iter()),
-    };
-    with_beats(layer, piece)
+        None => with_beats(chroma_of_notes(piece.melody.iter()), piece),
+    }
 }
 
 /// The chroma of a set of notes (see the module documentation).

@@ -452,7 +452,15 @@ fn build(
         chord_symbols: Vec::new(),
         ornaments: Vec::new(),
         warnings,
-        chroma: Some(chroma_layer(decoded, analysis)),
+        chroma: Some(chroma_layer(
+            decoded,
+            analysis,
+            if tracked.len() >= 2 {
+                grid.times.clone()
+            } else {
+                Vec::new()
+            },
+        )),
         unsure_spans: analysis.unsure.iter().map(|&(a, b)| [a, b]).collect(),
     })
 }
@@ -476,8 +484,9 @@ const SILENCE_DB: f32 = 40.0;
 
 /// The recording's harmony layer: the analysis chroma with silent frames set to zero. The
 /// chroma of each frame is scaled to its maximum, which would turn the faint noise of a lead-in
-/// or a fade into a full-scale profile; zero frames say "nothing sounds" instead.
-fn chroma_layer(decoded: &Decoded, analysis: &Analysis) -> ChromaLayer {
+/// or a fade into a full-scale profile; zero frames say "nothing sounds" instead. `beats` are
+/// the tracked beats (extended over the whole recording), empty when none were found.
+fn chroma_layer(decoded: &Decoded, analysis: &Analysis, beats: Vec<f64>) -> ChromaLayer {
     let hop = analysis.hop_length.max(1);
     let samples = &decoded.samples;
     let level = |k: usize| -> f32 {
@@ -515,7 +524,7 @@ fn chroma_layer(decoded: &Decoded, analysis: &Analysis) -> ChromaLayer {
         source: "recording",
         frames,
         onsets,
-        beats: Vec::new(),
+        beats,
     }
 }
 

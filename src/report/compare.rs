@@ -204,19 +204,23 @@ fn render_synchronisation(result: &Comparison) -> String {
     if !s.follows {
         return format!(
             "\n{recording} (recording) does not follow {score} (score) closely enough to take its \
-             bars (chroma cost ratio {:.2}, {:.0}% of its melody notes agree with the score's); \
-             its bars are estimated from tracked beats.\n",
+             bars (chroma cost ratio {:.2}, {:.0}% of its melody notes agree with the score's, {} \
+             of them; a performance needs 80% and {}); its bars are estimated from tracked \
+             beats.\n",
             s.cost_ratio,
-            100.0 * s.melody_agreement
+            100.0 * s.melody_agreement,
+            s.agreeing_notes,
+            crate::compare::sync::MIN_AGREEING_NOTES
         );
     }
     let (first, last) = (s.bar_map.first(), s.bar_map.last());
     format!(
         "\n{recording} (recording) follows {score} (score): chroma cost ratio {:.2}, {:.0}% of its \
-         melody notes agree with the score's, {}; bars {}–{} of {score} placed at {:.2}–{:.2} s of \
+         melody notes agree with the score's ({} notes), {}; bars {}–{} of {score} placed at {:.2}–{:.2} s of \
          {recording}{}\n",
         s.cost_ratio,
         100.0 * s.melody_agreement,
+        s.agreeing_notes,
         crate::compare::describe_transposition(s.transposition_semitones),
         first.map_or("", |b| b.label.as_str()),
         last.map_or("", |b| b.label.as_str()),

@@ -63,6 +63,8 @@ pub struct SyncContext {
     pub cost_ratio: String,
     /// Share of the recording's melody notes agreeing with the score's, percent.
     pub agreement: String,
+    /// How many notes agree.
+    pub agreeing_notes: usize,
     /// Recording relative to score.
     pub transposition: String,
     /// First and last bar placed.
@@ -120,11 +122,20 @@ pub fn harmony_context(evidence: Option<&HarmonicEvidence>) -> Option<HarmonyCon
         max_p: trim_number(p.max_p, 3),
         min_seconds: trim_number(p.min_seconds, 1),
         parameters: format!(
-            "frames of {} analysis frames averaged over {}; embedding dimension {}, delay {}; \
+            "{}; embedding dimension {}, delay {}; \
              nearest-neighbour share {}; least mean cosine {}; gap opening {}, gap extension {}; \
              shuffled in blocks of {}; seed {}",
-            p.step,
-            p.window,
+            if h.beat_synchronous {
+                format!(
+                    "{} frames per quarter note, each averaging {}",
+                    p.per_beat, p.beat_window
+                )
+            } else {
+                format!(
+                    "frames of {} analysis frames averaged over {}",
+                    p.step, p.window
+                )
+            },
             p.embedding,
             p.delay,
             trim_number(p.neighbours, 3),
@@ -149,6 +160,7 @@ pub fn sync_context(summary: Option<&SyncSummary>) -> Option<SyncContext> {
         bars_from_score: s.bars_from_score,
         cost_ratio: trim_number(s.cost_ratio, 2),
         agreement: trim_number(100.0 * s.melody_agreement, 0),
+        agreeing_notes: s.agreeing_notes,
         transposition: crate::compare::describe_transposition(s.transposition_semitones),
         first_bar: first.map_or_else(String::new, |b| b.label.clone()),
         last_bar: last.map_or_else(String::new, |b| b.label.clone()),

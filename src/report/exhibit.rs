@@ -1129,10 +1129,10 @@ pub fn shuffle_caution(null: &crate::stats::null::NullSummary) -> String {
     };
     format!(
         "The shuffles behind the chance figures could reorder the pitches of {which} out of {} \
-         drawn: keeping runs of {} pitches leaves little freedom in a melody with few repeated \
-         figures, so the shuffled melodies keep much of the originals, including what the two \
-         works share. The chance figures are therefore conservative: they make a passage look \
-         more likely to arise by chance than it is.",
+         drawn: keeping runs of {} pitches leaves such a melody little freedom, so the shuffled \
+         melodies keep much of the originals, including what the two works share. The chance \
+         figures are therefore conservative: they make a passage look more likely to arise by \
+         chance than it is.",
         null.shuffles, null.run_length
     )
 }
