@@ -61,6 +61,35 @@ fn compare_json_has_the_documented_fields() {
     }
 }
 
+/// `--shuffle-runs` sets the run length of the null model's shuffles: recorded in the JSON,
+/// counted in distinct orders, and limited to 2–8.
+#[test]
+fn shuffle_runs_reach_the_null_model() {
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let b = fixture("tune_family/alphabet_song_g_4-4.musicxml");
+    let null_of = |runs: &str| -> Value {
+        let (code, stdout, stderr) = run(&[
+            "compare",
+            &a,
+            &b,
+            "--format",
+            "json",
+            "--shuffle-runs",
+            runs,
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        let v: Value = serde_json::from_str(&stdout).unwrap();
+        v["null_model"].clone()
+    };
+    let (pairs, fours) = (null_of("2"), null_of("4"));
+    assert_eq!(pairs["run_length"], 2);
+    assert_eq!(fours["run_length"], 4);
+    // Keeping longer runs can only constrain the shuffles more.
+    assert!(pairs["distinct_a"].as_u64().unwrap() >= fours["distinct_a"].as_u64().unwrap());
+    let (code, _, stderr) = run(&["compare", &a, &b, "--shuffle-runs", "1"]);
+    assert_eq!(code, 2, "{stderr}");
+}
+
 #[test]
 fn compare_selection_errors_are_usage_errors() {
     let a = fixture("tune_family/twinkle_c_4-4.musicxml");

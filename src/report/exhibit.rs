@@ -290,6 +290,16 @@ impl<'a> Exhibit<'a> {
         }
         h.update(self.a.selection.reason.as_bytes());
         h.update(self.b.selection.reason.as_bytes());
+        // The statistics, harmony and score-following settings shape the document as well.
+        let r = self.result;
+        for settings in [
+            serde_json::to_string(&r.null_model),
+            serde_json::to_string(&r.harmony.as_ref().map(|x| &x.parameters)),
+            serde_json::to_string(&r.synchronisation.as_ref().map(|x| &x.parameters)),
+        ] {
+            h.update(settings.unwrap_or_default().as_bytes());
+            h.update([0u8]);
+        }
         h.finalize().iter().map(|b| format!("{b:02x}")).collect()
     }
 }
@@ -1132,8 +1142,11 @@ pub fn shuffle_caution(null: &crate::stats::null::NullSummary) -> String {
          drawn: keeping runs of {} pitches leaves such a melody little freedom, so the shuffled \
          melodies keep much of the originals, including what the two works share. The chance \
          figures are therefore conservative: they make a passage look more likely to arise by \
-         chance than it is.",
-        null.shuffles, null.run_length
+         chance than it is (shorter runs, `--shuffle-runs {}`, free the shuffles at the price of \
+         more chance agreement between melodies of one idiom).",
+        null.shuffles,
+        null.run_length,
+        null.run_length.saturating_sub(1).max(2)
     )
 }
 
