@@ -209,7 +209,11 @@ fn compare_a_recording_with_its_score() {
 #[test]
 fn a_clip_of_one_note_does_not_follow_a_score() {
     let dir = tempfile::tempdir().unwrap();
-    let p = write(dir.path(), "a4.wav", &wav(22_050, 1, &tone(440.0, 0.5, 22_050), None));
+    let p = write(
+        dir.path(),
+        "a4.wav",
+        &wav(22_050, 1, &tone(440.0, 0.5, 22_050), None),
+    );
     let score = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("demo/harbour-lights.musicxml");
     let out = collatio(&["compare", &p, score.to_str().unwrap(), "--format", "json"]);
     let record: serde_json::Value = serde_json::from_slice(&out.stdout)
