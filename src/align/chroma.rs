@@ -13,7 +13,7 @@
 
 use crate::timeline::ChromaLayer;
 
-/// A chroma sequence ready for comparison: unit-length frames on a fixed step.
+/// A chroma sequence ready for comparison: unit-length frames on a fixed step or a beat grid.
 #[derive(Debug, Clone)]
 pub struct ChromaFeatures {
     /// Seconds between frames (the mean spacing for frames on a beat grid).
@@ -46,12 +46,13 @@ impl ChromaFeatures {
         features.finish()
     }
 
-    /// Features on the layer's quarter-note grid ([`ChromaLayer::beats`]): every quarter is
-    /// split into `per_beat` equal parts, and frame `k` averages the layer's frames over
-    /// `window` parts around part `k` (one part: the part itself; two: from the middle of
-    /// the part before to the middle of the next, and so on). Beat-synchronous chroma, as
-    /// Serrà et al. (2009) compare it, makes a state a stretch of musical time whatever the
-    /// tempo. `None` when the layer lists fewer than three quarters.
+    /// Features on the layer's beat grid ([`ChromaLayer::beats`]: a score's quarter notes, a
+    /// recording's tracked beats): every beat is split into `per_beat` equal parts, and frame
+    /// `k` averages the layer's frames over `window` parts around part `k` (one part: the
+    /// part itself; two: from the middle of the part before to the middle of the next, and so
+    /// on). Beat-synchronous chroma, as Serrà et al. (2009) compare it, makes a state a
+    /// stretch of musical time whatever the tempo. `None` when the layer lists fewer than
+    /// three beats.
     pub fn on_beats(layer: &ChromaLayer, per_beat: usize, window: usize) -> Option<ChromaFeatures> {
         if layer.beats.len() < 3 || layer.hop_seconds <= 0.0 {
             return None;

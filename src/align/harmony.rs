@@ -3,9 +3,9 @@
 //! Method (Serrà, Serra & Andrzejak 2009, "Cross recurrence quantification for cover song
 //! identification", New Journal of Physics 11):
 //! 1. Both chromagrams become beat-synchronous [`ChromaFeatures`] (`per_beat` frames per
-//!    quarter note of each piece, each averaging `beat_window` of them; fixed-time frames of
-//!    `step` analysis frames averaged over `window` when a piece has no beat grid); B is
-//!    moved into A's key by the optimal transposition index (Serrà et al. 2008); the two best
+//!    beat of each piece — a score's quarter note, a recording's tracked beat — each
+//!    averaging `beat_window` of them; fixed-time frames of `step` analysis frames averaged
+//!    over `window` when a piece has no beat grid); B is moved into A's key by the optimal transposition index (Serrà et al. 2008); the two best
 //!    indices are tried and the stronger result kept.
 //! 2. Delay embedding: the state at frame `i` is the concatenation of frames `i, i + τ, …,
 //!    i + (m − 1)τ`, so that a state is a short progression rather than one chord.
@@ -29,7 +29,7 @@
 //! passages, collatio uses a sparser plot and a dearer gap (κ = 0.07, γe = 2) plus an absolute
 //! floor on the similarity of recurrent states (mean cosine 0.7), which keep a path from
 //! wandering through unrelated music on chance recurrences. These values, the frame rate and
-//! the embedding (m = 8 half-quarter frames, τ = 1, so a state spans four quarters) were
+//! the embedding (m = 8 half-beat frames, τ = 1, so a state spans four beats) were
 //! chosen on the arrangement fixtures (`tests/arrangements.rs`): the shared progression of two
 //! arrangements is found with its bars, and every passage reported between the other pairs
 //! lies on a chord progression they share.
@@ -48,12 +48,12 @@ const TRANSPOSITIONS_TRIED: usize = 2;
 /// Parameters of the harmonic comparison.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct HarmonyParams {
-    /// Feature frames per quarter note when both pieces list their quarters
+    /// Feature frames per beat when both pieces list their beats
     /// ([`crate::timeline::ChromaLayer::beats`]): beat-synchronous features. Default 2; 0
     /// uses fixed-time frames (`step`, `window`) instead.
     pub per_beat: usize,
-    /// Feature frames (parts of a quarter) averaged into one, on the beat grid. Default 2
-    /// (one quarter).
+    /// Feature frames (parts of a beat) averaged into one, on the beat grid. Default 2
+    /// (one beat).
     pub beat_window: usize,
     /// Analysis frames per feature frame without a beat grid. Default 8 (≈ 0.19 s at the
     /// 23.2 ms analysis hop).
@@ -143,7 +143,7 @@ pub struct HarmonicComparison {
     /// B's key relative to A's by the optimal transposition index, folded to −5 … +6
     /// semitones.
     pub transposition_semitones: i32,
-    /// Whether the features were beat-synchronous (on both pieces' quarter notes) rather
+    /// Whether the features were beat-synchronous (on both pieces' beats) rather
     /// than fixed-time frames.
     pub beat_synchronous: bool,
     /// Seconds between feature frames in A (the mean on a beat grid).
@@ -208,7 +208,7 @@ pub fn compare_harmony(
     found
 }
 
-/// Both pieces' features: on their quarter-note grids when both have one long enough for a
+/// Both pieces' features: on their beat grids when both have one long enough for a
 /// state and the plot stays under `max_cells`, else on fixed-time frames; with the frames
 /// each averages and whether they are beat-synchronous.
 fn features(

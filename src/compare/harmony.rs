@@ -55,7 +55,7 @@ pub struct HarmonicEvidence {
     pub transposition_semitones: i32,
     /// The same as an interval and direction.
     pub transposition: String,
-    /// Whether the chroma was compared per beat (on both works' quarter notes) rather than
+    /// Whether the chroma was compared per beat (on both works' beats) rather than
     /// on fixed-time frames.
     pub beat_synchronous: bool,
     /// Seconds between chroma frames compared (in A; the mean on a beat grid).

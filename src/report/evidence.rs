@@ -127,7 +127,7 @@ pub fn harmony_context(evidence: Option<&HarmonicEvidence>) -> Option<HarmonyCon
              shuffled in blocks of {}; seed {}",
             if h.beat_synchronous {
                 format!(
-                    "{} frames per quarter note, each averaging {}",
+                    "{} frames per beat, each averaging {}",
                     p.per_beat, p.beat_window
                 )
             } else {
