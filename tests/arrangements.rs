@@ -418,3 +418,35 @@ fn every_pairing_of_score_midi_and_recording_finds_the_piece() {
         );
     }
 }
+
+/// The harmony layer's beats: a score's quarter notes from its tempo map (larkfield is in 4/4
+/// at 100 bpm, bars of 2.4 s in its truth file), a recording's tracked beats at the same
+/// spacing; with both the comparison runs per beat, and a recording without beats falls back
+/// to fixed-time frames.
+#[test]
+fn harmony_runs_on_beats_when_both_works_have_them() {
+    let bar_seconds = bar_starts("larkfield")[1] - bar_starts("larkfield")[0];
+    let score = chroma("larkfield.musicxml");
+    let recording = chroma("larkfield.ogg");
+    let spacing = |beats: &[f64]| {
+        let mut gaps: Vec<f64> = beats.windows(2).map(|w| w[1] - w[0]).collect();
+        gaps.sort_by(f64::total_cmp);
+        gaps[gaps.len() / 2]
+    };
+    assert!((spacing(&score.beats) - bar_seconds / 4.0).abs() < 1e-6);
+    assert!(*score.beats.last().unwrap() >= score.seconds());
+    let tracked = spacing(&recording.beats);
+    assert!(
+        (tracked / (bar_seconds / 4.0) - 1.0).abs() < 0.03,
+        "tracked beat {tracked} s"
+    );
+    let params = HarmonyParams::default();
+    assert!(compare_harmony(&score, &recording, &params).beat_synchronous);
+    let unbeaten = ChromaLayer {
+        beats: Vec::new(),
+        ..recording.clone()
+    };
+    let fixed = compare_harmony(&score, &unbeaten, &params);
+    assert!(!fixed.beat_synchronous);
+    assert!((fixed.frame_seconds - 8.0 * score.hop_seconds).abs() < 1e-9);
+}
