@@ -367,6 +367,21 @@ mod tests {
     }
 
     #[test]
+    fn a_hint_beyond_the_usual_range_is_searched() {
+        // Clicks every 9 frames (287 bpm): outside the 30–240 bpm search, the unhinted
+        // estimate takes the half tempo; a hint of 290 finds the clicks' own rate.
+        let onset = clicks(&[0], 9, 1300);
+        let got = bpm(&onset, &BeatOptions::default());
+        assert!((got - 143.6).abs() < 2.0, "{got}");
+        let hinted = BeatOptions {
+            tempo_hint: Some(290.0),
+            ..BeatOptions::default()
+        };
+        let got = bpm(&onset, &hinted);
+        assert!((got - 287.1).abs() < 4.0, "{got}");
+    }
+
+    #[test]
     fn clicks_at_100_bpm() {
         // An impulse train at 100 bpm (0.6 s) on frames of 512 samples at 22,050 Hz.
         let frame_rate = 22_050.0 / 512.0;
