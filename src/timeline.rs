@@ -502,6 +502,16 @@ impl ChromaLayer {
 }
 
 impl Piece {
+    /// The key signature in force at `ticks`: the last one at or before it, or, before the
+    /// first one, the first (a signature that arrives after a few notes still governs them).
+    /// `None` when the piece states no key signature.
+    pub fn key_at(&self, ticks: i64) -> Option<&KeySignature> {
+        let i = self.key_signatures.partition_point(|k| k.ticks <= ticks);
+        self.key_signatures
+            .get(i.saturating_sub(1))
+            .or_else(|| self.key_signatures.first())
+    }
+
     /// The bar a time in seconds falls in (the last bar starting at or before it; 0 before
     /// the first).
     pub fn bar_at_seconds(&self, seconds: f64) -> usize {

@@ -180,7 +180,7 @@ impl ExhibitArgs {
         collatio::report::exhibit::ExhibitError,
     > {
         use collatio::report::exhibit::{resolve_date, ExhibitError, ExhibitOptions, Outputs};
-        if collatio::report::notation::parse_tonic(&self.common_key).is_none() {
+        if collatio::theory::parse_tonic(&self.common_key).is_none() {
             return Err(ExhibitError::BadKey(self.common_key.clone()));
         }
         let options = ExhibitOptions {

@@ -8,7 +8,8 @@
 //! without a shared tune (a progression, an accompaniment figure) or a shared tune the melody
 //! reading missed (for example in a recording of a full arrangement).
 
-use super::{describe_transposition, Comparison};
+use super::Comparison;
+use crate::theory::describe_transposition;
 use crate::align::harmony::{compare_harmony, HarmonyParams};
 use crate::features::chroma::chroma_of;
 use crate::timeline::Piece;

@@ -23,7 +23,7 @@ pub mod sync;
 
 use crate::align::{align, AlignParams, Alignment, Step};
 use crate::features::Sequence;
-use crate::theory::{key_name, Interval};
+use crate::theory::{describe_transposition, key_name};
 use crate::timeline::{Note, Piece};
 use serde::Serialize;
 
@@ -254,14 +254,9 @@ fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {
             .get(bar)
             .map_or_else(String::new, |b| b.label.clone())
     };
-    let key = {
-        let i = piece
-            .key_signatures
-            .partition_point(|k| k.ticks <= first.onset_ticks);
-        i.checked_sub(1)
-            .and_then(|i| piece.key_signatures.get(i))
-            .map(|k| key_name(k.fifths, k.mode))
-    };
+    let key = piece
+        .key_at(first.onset_ticks)
+        .map(|k| key_name(k.fifths, k.mode));
     PassageSide {
         bars: [label(first.bar), label(last.bar)],
         bar_indices: [first.bar, last.bar],
@@ -276,48 +271,6 @@ fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {
         unmatched,
         key,
     }
-}
-
-/// Names a transposition: `0` → `same pitch`, `−3` → `down a minor third`.
-pub fn describe_transposition(semitones: i32) -> String {
-    if semitones == 0 {
-        return "at the same pitch".into();
-    }
-    let interval = Interval::from_semitones(semitones.unsigned_abs());
-    let name = match (interval.quality, interval.number) {
-        (_, 1) => "unison".to_string(),
-        (q, n) => {
-            let quality = match q {
-                crate::theory::Quality::Perfect => "perfect",
-                crate::theory::Quality::Major => "major",
-                crate::theory::Quality::Minor => "minor",
-                crate::theory::Quality::Augmented => "augmented",
-                crate::theory::Quality::Diminished => "diminished",
-            };
-            let number = match n {
-                2 => "second".to_string(),
-                3 => "third".into(),
-                4 => "fourth".into(),
-                5 => "fifth".into(),
-                6 => "sixth".into(),
-                7 => "seventh".into(),
-                8 => "octave".into(),
-                n => format!("{}th", n),
-            };
-            if n == 8 {
-                "an octave".to_string()
-            } else {
-                let article = if quality.starts_with(['a', 'e', 'i', 'o', 'u']) {
-                    "an"
-                } else {
-                    "a"
-                };
-                format!("{article} {quality} {number}")
-            }
-        }
-    };
-    let direction = if semitones > 0 { "up" } else { "down" };
-    format!("{direction} {name}")
 }
 
 fn passage(

@@ -221,7 +221,7 @@ fn render_synchronisation(result: &Comparison) -> String {
         s.cost_ratio,
         100.0 * s.melody_agreement,
         s.agreeing_notes,
-        crate::compare::describe_transposition(s.transposition_semitones),
+        crate::theory::describe_transposition(s.transposition_semitones),
         first.map_or("", |b| b.label.as_str()),
         last.map_or("", |b| b.label.as_str()),
         first.map_or(0.0, |b| b.recording_seconds),

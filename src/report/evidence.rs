@@ -161,7 +161,7 @@ pub fn sync_context(summary: Option<&SyncSummary>) -> Option<SyncContext> {
         cost_ratio: trim_number(s.cost_ratio, 2),
         agreement: trim_number(100.0 * s.melody_agreement, 0),
         agreeing_notes: s.agreeing_notes,
-        transposition: crate::compare::describe_transposition(s.transposition_semitones),
+        transposition: crate::theory::describe_transposition(s.transposition_semitones),
         first_bar: first.map_or_else(String::new, |b| b.label.clone()),
         last_bar: last.map_or_else(String::new, |b| b.label.clone()),
         first_seconds: first.map_or_else(String::new, |b| trim_number(b.recording_seconds, 2)),

@@ -236,7 +236,7 @@ impl<'a> Exhibit<'a> {
         result: &'a Comparison,
         options: &'a ExhibitOptions,
     ) -> Result<Exhibit<'a>, ExhibitError> {
-        let target_tonic = notation::parse_tonic(&options.common_key)
+        let target_tonic = crate::theory::parse_tonic(&options.common_key)
             .ok_or_else(|| ExhibitError::BadKey(options.common_key.clone()))?;
         let label_a = options.label_a.clone().unwrap_or_else(|| default_label(a));
         let label_b = options.label_b.clone().unwrap_or_else(|| default_label(b));
@@ -411,7 +411,7 @@ fn work_context(
     if sel.skyline {
         restrictions.push("chords reduced to their top note".into());
     }
-    let key = piece.key_signatures.first().map_or_else(
+    let key = piece.key_at(0).map_or_else(
         || "not stated".to_string(),
         |k| crate::theory::key_name(k.fifths, k.mode),
     );
@@ -785,7 +785,7 @@ fn shift_text(shift: i32) -> String {
     if shift == 0 {
         "at pitch".into()
     } else {
-        crate::compare::describe_transposition(shift)
+        crate::theory::describe_transposition(shift)
     }
 }
 

@@ -118,3 +118,45 @@ impl Interval {
         Interval { quality, number }
     }
 }
+
+/// Names a transposition: `0` → `same pitch`, `−3` → `down a minor third`.
+pub fn describe_transposition(semitones: i32) -> String {
+    if semitones == 0 {
+        return "at the same pitch".into();
+    }
+    let interval = Interval::from_semitones(semitones.unsigned_abs());
+    let name = match (interval.quality, interval.number) {
+        (_, 1) => "unison".to_string(),
+        (q, n) => {
+            let quality = match q {
+                Quality::Perfect => "perfect",
+                Quality::Major => "major",
+                Quality::Minor => "minor",
+                Quality::Augmented => "augmented",
+                Quality::Diminished => "diminished",
+            };
+            let number = match n {
+                2 => "second".to_string(),
+                3 => "third".into(),
+                4 => "fourth".into(),
+                5 => "fifth".into(),
+                6 => "sixth".into(),
+                7 => "seventh".into(),
+                8 => "octave".into(),
+                n => format!("{}th", n),
+            };
+            if n == 8 {
+                "an octave".to_string()
+            } else {
+                let article = if quality.starts_with(['a', 'e', 'i', 'o', 'u']) {
+                    "an"
+                } else {
+                    "a"
+                };
+                format!("{article} {quality} {number}")
+            }
+        }
+    };
+    let direction = if semitones > 0 { "up" } else { "down" };
+    format!("{direction} {name}")
+}

@@ -1,4 +1,5 @@
-//! Music theory: pitch names and spelling, intervals, key names and equal-temperament tuning.
+//! Music theory: pitch names and spelling, intervals and transpositions in words, keys (names,
+//! tonics, scale degrees, spelling in a key) and equal-temperament tuning.
 //!
 //! Numbers go in, names come out, and every table here is checked in tests against a published
 //! source (interval sizes against a theory handbook, frequencies against the piano-key table
@@ -15,7 +16,9 @@ mod key;
 mod pitch;
 mod tuning;
 
-pub use interval::{Interval, Quality};
-pub use key::{key_name, KeyMode};
+pub use interval::{describe_transposition, Interval, Quality};
+pub use key::{
+    degree, fifths_of, key_name, parse_tonic, spell_in_key, spelling_shift, tonic, KeyMode,
+};
 pub use pitch::{pitch_name, PitchClassName, Spelling, Step};
 pub use tuning::{cents_between, frequency_of, midi_of_frequency, DEFAULT_REFERENCE_HZ};
