@@ -34,7 +34,7 @@
 //! arrangements is found with its bars, and every passage reported between the other pairs
 //! lies on a chord progression they share.
 
-use super::chroma::{transposition_ranking, ChromaFeatures};
+use crate::features::chroma_features::{transposition_ranking, ChromaFeatures};
 use crate::timeline::ChromaLayer;
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
@@ -272,7 +272,7 @@ fn compare_at(
 ) -> HarmonicComparison {
     let hop = fa.hop_seconds;
     let empty = HarmonicComparison {
-        transposition_semitones: super::chroma::signed_shift(index),
+        transposition_semitones: crate::features::chroma_features::signed_shift(index),
         beat_synchronous: false,
         frame_seconds: hop,
         window_seconds: [hop * window_frames, fb.hop_seconds * window_frames],
@@ -326,7 +326,7 @@ fn compare_at(
         }
         let similarity = path
             .iter()
-            .map(|&(i, j)| f64::from(super::chroma::dot(&fa.frames[i], &fb.frames[j])))
+            .map(|&(i, j)| f64::from(crate::features::chroma_features::dot(&fa.frames[i], &fb.frames[j])))
             .sum::<f64>()
             / path.len() as f64;
         let recurrences = path.iter().filter(|&&(i, j)| plot.at(i, j)).count();
@@ -384,7 +384,7 @@ fn recurrence_plot(
         let row = &mut single[i * nb..(i + 1) * nb];
         for (j, cell) in row.iter_mut().enumerate() {
             *cell = (norms_a[i] + norms_b[j]
-                - 2.0 * super::chroma::dot(&fa.frames[i], &fb.frames[j]))
+                - 2.0 * crate::features::chroma_features::dot(&fa.frames[i], &fb.frames[j]))
             .max(0.0);
         }
     }

@@ -27,7 +27,6 @@
 //! assert!(align(&empty, &empty, &AlignParams::default()).is_empty());
 //! ```
 
-pub mod chroma;
 pub mod harmony;
 mod scan;
 pub(crate) mod score;

@@ -20,7 +20,7 @@
 //!   mean cost of all pairs of frames (what an unrelated pairing costs): a `cost_ratio` below
 //!   `max_cost_ratio` (default 0.6) says that the recording follows the score.
 
-use super::chroma::{dot, signed_shift, transposition_ranking, ChromaFeatures};
+use crate::features::chroma_features::{dot, signed_shift, transposition_ranking, ChromaFeatures};
 use crate::timeline::ChromaLayer;
 use serde::Serialize;
 
@@ -286,7 +286,7 @@ fn coarsen(f: &ChromaFeatures, factor: usize) -> ChromaFeatures {
                     *s += *v;
                 }
             }
-            super::chroma::normalise(&mut sum);
+            crate::features::chroma_features::normalise(&mut sum);
             sum
         })
         .collect();

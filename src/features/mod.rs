@@ -6,6 +6,10 @@
 //! feature except pitch and pitch class is computed from ratios of durations, so scaling all
 //! durations by a constant (a tempo change, doubled note values) leaves them unchanged.
 //!
+//! The harmony side: [`chroma`] gives any piece a chromagram (measured from a recording or
+//! derived from its notes), and [`chroma_features`] prepares chroma frames for comparison
+//! (averaged, compressed, unit length) and finds the optimal transposition index.
+//!
 //! ```
 //! use collatio::features::{MetricLevel, metric_level};
 //! // In 4/4 the third beat (two quarter notes into the bar) is a strong beat.
@@ -13,6 +17,7 @@
 //! ```
 
 pub mod chroma;
+pub mod chroma_features;
 
 use crate::timeline::Piece;
 use serde::Serialize;
