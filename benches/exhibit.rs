@@ -16,14 +16,18 @@ fn bench(c: &mut Criterion) {
     )
     .unwrap();
     let b = read_file(&root.join("paper-boats.musicxml"), &ReadOptions::default()).unwrap();
-    let params = collatio::align::AlignParams::default();
-    let result = collatio::compare::compare(&a, &b, &params);
+    let findings = collatio::pipeline::compare_works(
+        a,
+        b,
+        &collatio::findings::CompareSettings::default(),
+        None,
+    );
     let options = ExhibitOptions {
         case_label: Some("Holloway v. Wren (invented demo case)".into()),
         date: Some("2025-06-01".into()),
         ..ExhibitOptions::default()
     };
-    let exhibit = Exhibit::new(&a, &b, &params, &result, &options).unwrap();
+    let exhibit = Exhibit::new(&findings, &options).unwrap();
     let (bytes, pages) = collatio::report::pdf::render(&exhibit).unwrap();
     eprintln!("demo exhibit: {} bytes, {pages} pages", bytes.len());
 
@@ -31,7 +35,7 @@ fn bench(c: &mut Criterion) {
     group.sample_size(20);
     group.bench_function("demo_pdf_render", |bench| {
         bench.iter(|| {
-            let exhibit = Exhibit::new(&a, &b, &params, &result, &options).unwrap();
+            let exhibit = Exhibit::new(&findings, &options).unwrap();
             collatio::report::pdf::render(&exhibit).unwrap()
         })
     });
@@ -42,7 +46,7 @@ fn bench(c: &mut Criterion) {
         export_dir: Some(dir.path().join("passages")),
     };
     group.bench_function("demo_all_files_written", |bench| {
-        bench.iter(|| write_exhibit(&a, &b, &params, &result, &options, &outputs).unwrap())
+        bench.iter(|| write_exhibit(&findings, &options, &outputs).unwrap())
     });
     group.finish();
 }

@@ -52,7 +52,7 @@ fn layer(chords: &[(usize, bool, f64)], shift: usize, speed: f64, seconds: f64) 
     ChromaLayer {
         hop_seconds: HOP,
         tuning: 0.0,
-        source: "notes",
+        source: collatio::timeline::ChromaSource::Notes,
         frames,
         onsets,
         beats: (0..)

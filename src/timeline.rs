@@ -36,6 +36,9 @@ pub enum Format {
     Aac,
     /// AIFF or AIFF-C audio (IFF `FORM` … `AIFF`/`AIFC`).
     Aiff,
+    /// A melody kept in a corpus index (its notes, bars and key; the original file is
+    /// named by its path and SHA-256).
+    IndexedMelody,
 }
 
 impl Format {
@@ -51,6 +54,7 @@ impl Format {
             Format::OggVorbis => "Ogg Vorbis audio",
             Format::Aac => "AAC audio (MP4/M4A or ADTS)",
             Format::Aiff => "AIFF audio",
+            Format::IndexedMelody => "melody from a corpus index",
         }
     }
 
@@ -466,6 +470,16 @@ pub struct Piece {
     pub chroma: Option<ChromaLayer>,
 }
 
+/// Where a chroma profile comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum ChromaSource {
+    /// The short-time spectrum of a recording.
+    Recording,
+    /// Every sounding note of every pitched part of a score or MIDI file.
+    Notes,
+}
+
 /// A chromagram: a 12-bin pitch-class profile per frame on a fixed time step (the harmony
 /// layer of a piece). Pitch class 0 is C; frame `k` is centred on `k · hop_seconds` seconds
 /// of the piece's timeline.
@@ -476,9 +490,8 @@ pub struct ChromaLayer {
     /// Tuning of the recording in fractions of a semitone relative to A4 = 440 Hz (0 for
     /// notated music).
     pub tuning: f64,
-    /// Where the profile comes from: `recording` (short-time spectrum) or `notes` (every
-    /// sounding note of every pitched part).
-    pub source: &'static str,
+    /// Where the profile comes from.
+    pub source: ChromaSource,
     /// One profile per frame, each frame's maximum 1 (or all 0 in silence).
     #[serde(skip)]
     pub frames: Vec<[f32; 12]>,

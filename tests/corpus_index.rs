@@ -6,11 +6,9 @@
 mod common;
 
 use collatio::align::AlignParams;
+use collatio::corpus::{build_from_dir, figures, slice, tokens, CorpusIndex, IndexError, NGRAM};
 use collatio::features::Sequence;
 use collatio::ingest::{read_file, ReadOptions};
-use collatio::stats::corpus::{
-    build_from_dir, figures, slice, tokens, CorpusIndex, IndexError, NGRAM,
-};
 
 fn index() -> CorpusIndex {
     let dir = common::fixture("tune_family");

@@ -79,26 +79,41 @@ fn expected(piece: &Piece, side: &collatio::report::notation::StaffView) -> Note
         .collect()
 }
 
+/// The demo pair compared on melody alone (the exports draw only the passages).
+fn melodic_findings() -> collatio::findings::Findings {
+    let (a, b) = pieces();
+    let settings = collatio::findings::CompareSettings {
+        null: collatio::stats::null::NullParams {
+            shuffles: 0,
+            ..Default::default()
+        },
+        harmony: None,
+        sync: None,
+        ..Default::default()
+    };
+    collatio::pipeline::compare_works(a, b, &settings, None)
+}
+
 #[test]
 fn exports_read_back_with_the_same_notes() {
-    let (a, b) = pieces();
-    let params = collatio::align::AlignParams::default();
-    let result = collatio::compare::compare(&a, &b, &params);
-    assert!(!result.passages.is_empty());
+    let findings = melodic_findings();
+    let (a, b) = (&findings.a, &findings.b);
+    assert!(!findings.passages.is_empty());
     let options = ExhibitOptions::default();
     let dir = tempfile::tempdir().unwrap();
     let outputs = Outputs {
         export_dir: Some(dir.path().join("passages")),
         ..Outputs::default()
     };
-    write_exhibit(&a, &b, &params, &result, &options, &outputs).unwrap();
-    let exhibit = Exhibit::new(&a, &b, &params, &result, &options).unwrap();
-    for (passage, view) in result.passages.iter().zip(&exhibit.views) {
+    write_exhibit(&findings, &options, &outputs).unwrap();
+    let exhibit = Exhibit::new(&findings, &options).unwrap();
+    for (finding, view) in findings.passages.iter().zip(&exhibit.views) {
+        let passage = &finding.passage;
         let stem = collatio::report::export::file_stem(passage.rank);
         let xml = dir.path().join("passages").join(format!("{stem}.musicxml"));
         let mid = dir.path().join("passages").join(format!("{stem}.mid"));
-        let want_a = expected(&a, &view.a);
-        let want_b = expected(&b, &view.b);
+        let want_a = expected(a, &view.a);
+        let want_b = expected(b, &view.b);
         assert_same("MusicXML part A", &melody(&xml, "P1"), &want_a);
         assert_same("MusicXML part B", &melody(&xml, "P2"), &want_b);
         // MIDI: track 1 is the conductor; A on track 2, channel 1; B on track 3, channel 2.
@@ -113,23 +128,13 @@ fn exports_read_back_with_the_same_notes() {
 
 #[test]
 fn music21_reads_the_same_notes_as_collatio() {
-    let (a, b) = pieces();
-    let params = collatio::align::AlignParams::default();
-    let result = collatio::compare::compare(&a, &b, &params);
+    let findings = melodic_findings();
     let dir = tempfile::tempdir().unwrap();
     let outputs = Outputs {
         export_dir: Some(dir.path().to_path_buf()),
         ..Outputs::default()
     };
-    write_exhibit(
-        &a,
-        &b,
-        &params,
-        &result,
-        &ExhibitOptions::default(),
-        &outputs,
-    )
-    .unwrap();
+    write_exhibit(&findings, &ExhibitOptions::default(), &outputs).unwrap();
     let golden_dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/golden/exports");
     let mut checked = 0;
     for entry in std::fs::read_dir(&golden_dir).unwrap() {

@@ -264,8 +264,11 @@ fn piano_roll_and_other_keys_render() {
     use collatio::report::exhibit::{ExhibitOptions, Outputs};
     let a = read_file(&demo("harbour-lights.musicxml"), &ReadOptions::default()).unwrap();
     let b = read_file(&demo("paper-boats.musicxml"), &ReadOptions::default()).unwrap();
-    let params = collatio::align::AlignParams::default();
-    let result = collatio::compare::compare(&a, &b, &params);
+    let settings = collatio::findings::CompareSettings {
+        harmony: None,
+        ..Default::default()
+    };
+    let findings = collatio::pipeline::compare_works(a, b, &settings, None);
     let dir = tempfile::tempdir().unwrap();
     for (roll, key) in [(true, "C"), (false, "Eb"), (false, "F#")] {
         let options = ExhibitOptions {
@@ -278,8 +281,7 @@ fn piano_roll_and_other_keys_render() {
             ..Outputs::default()
         };
         let written =
-            collatio::report::exhibit::write_exhibit(&a, &b, &params, &result, &options, &outputs)
-                .unwrap();
+            collatio::report::exhibit::write_exhibit(&findings, &options, &outputs).unwrap();
         assert!(written.pdf_pages >= 6);
     }
 }

@@ -10,7 +10,7 @@
 mod common;
 
 use collatio::align::AlignParams;
-use collatio::compare::{compare, Comparison};
+use collatio::compare::{compare, Comparison, PairKind};
 use collatio::features::Sequence;
 use collatio::ingest::{read_file, ReadOptions};
 use collatio::timeline::Piece;
@@ -109,9 +109,9 @@ fn transposition_and_note_values_are_reported() {
 #[test]
 fn lyric_splittings_align_as_fragmentation_and_consolidation() {
     let (_, _, result) = run(FAMILY[0], FAMILY[2]);
-    let kinds: Vec<&str> = result.passages[0].pairs.iter().map(|p| p.kind).collect();
-    assert!(kinds.contains(&"fragmentation"), "{kinds:?}");
-    assert!(kinds.contains(&"consolidation"), "{kinds:?}");
+    let kinds: Vec<PairKind> = result.passages[0].pairs.iter().map(|p| p.kind).collect();
+    assert!(kinds.contains(&PairKind::Fragmentation), "{kinds:?}");
+    assert!(kinds.contains(&PairKind::Consolidation), "{kinds:?}");
 }
 
 /// "Clearly lower": under half the family's lowest similarity, and a top passage under a fifth

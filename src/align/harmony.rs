@@ -326,7 +326,12 @@ fn compare_at(
         }
         let similarity = path
             .iter()
-            .map(|&(i, j)| f64::from(crate::features::chroma_features::dot(&fa.frames[i], &fb.frames[j])))
+            .map(|&(i, j)| {
+                f64::from(crate::features::chroma_features::dot(
+                    &fa.frames[i],
+                    &fb.frames[j],
+                ))
+            })
             .sum::<f64>()
             / path.len() as f64;
         let recurrences = path.iter().filter(|&&(i, j)| plot.at(i, j)).count();
@@ -636,7 +641,7 @@ mod tests {
         ChromaLayer {
             hop_seconds: 512.0 / 22_050.0,
             tuning: 0.0,
-            source: "notes",
+            source: crate::timeline::ChromaSource::Notes,
             frames,
             onsets: Vec::new(),
             beats: Vec::new(),

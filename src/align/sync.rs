@@ -457,7 +457,7 @@ mod tests {
         ChromaLayer {
             hop_seconds: 0.05,
             tuning: 0.0,
-            source: "notes",
+            source: crate::timeline::ChromaSource::Notes,
             frames,
             onsets: Vec::new(),
             beats: Vec::new(),

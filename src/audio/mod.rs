@@ -18,7 +18,6 @@
 //! | [`melody`] | predominant melody of polyphonic audio, with unsure spans | salience by harmonic summation, pitch contours (Salamon & Gómez 2012) |
 //! | [`beats`] | onset strength, tempo, beats | spectral flux; dynamic programming (Ellis 2007) |
 //! | [`eval`] | evaluation measures | as defined by mir_eval (Raffel et al. 2014) |
-//! | [`export`] | a melody as a Standard MIDI File | midly's writer |
 //!
 //! Conventions, stated once for the whole module:
 //! - Analysis rate 22,050 Hz, mono (the mean of all channels).
@@ -45,7 +44,6 @@ pub mod beats;
 pub mod chroma;
 pub mod decode;
 pub mod eval;
-pub mod export;
 pub mod melody;
 pub mod notes;
 pub mod pitch;

@@ -1,6 +1,7 @@
 //! Command-line arguments as data, with a terse `-h` and a long `--help`.
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
+use collatio::findings::CompareSettings;
 use collatio::ingest::{BarRange, Limits, MelodyChoice, ReadOptions};
 use std::path::PathBuf;
 
@@ -76,9 +77,9 @@ Exit codes:
     Compare(Box<CompareArgs>),
     /// Build a reference corpus index of prior art.
     #[command(subcommand)]
-    Corpus(super::corpus::CorpusCommand),
+    Corpus(CorpusCommand),
     /// Look for a melody in a corpus index: best matches with their passages.
-    Search(Box<super::corpus::SearchArgs>),
+    Search(Box<SearchArgs>),
 }
 
 #[derive(Debug, Args)]
@@ -228,13 +229,25 @@ pub struct HarmonyArgs {
 }
 
 impl HarmonyArgs {
-    /// The library parameters of the harmonic comparison.
-    pub fn params(&self) -> collatio::align::harmony::HarmonyParams {
-        collatio::align::harmony::HarmonyParams {
-            shuffles: self.harmony_shuffles,
-            max_p: self.harmony_max_p,
-            ..collatio::align::harmony::HarmonyParams::default()
+    /// The library parameters of the harmonic comparison, `None` when it is left out.
+    pub fn params(&self) -> Result<Option<collatio::align::harmony::HarmonyParams>, UsageError> {
+        if !(0.0..=1.0).contains(&self.harmony_max_p) {
+            return Err(UsageError(
+                "--harmony-max-p must lie between 0 and 1".into(),
+            ));
         }
+        Ok(
+            (!self.no_harmony).then(|| collatio::align::harmony::HarmonyParams {
+                shuffles: self.harmony_shuffles,
+                max_p: self.harmony_max_p,
+                ..collatio::align::harmony::HarmonyParams::default()
+            }),
+        )
+    }
+
+    /// The score-following parameters, `None` when a recording keeps its own bars.
+    pub fn sync_params(&self) -> Option<collatio::align::sync::SyncParams> {
+        (!self.keep_recording_bars).then(collatio::align::sync::SyncParams::default)
     }
 }
 
@@ -732,6 +745,16 @@ impl LimitArgs {
 }
 
 impl CompareArgs {
+    /// Every analysis setting, validated.
+    pub fn settings(&self) -> Result<CompareSettings, UsageError> {
+        Ok(CompareSettings {
+            align: self.alignment.params(),
+            null: self.statistics.null_params(),
+            harmony: self.harmony.params()?,
+            sync: self.harmony.sync_params(),
+        })
+    }
+
     /// Reading options for A and B.
     pub fn read_options(&self) -> Result<(ReadOptions, ReadOptions), UsageError> {
         let audio = self.audio.options()?;
@@ -780,4 +803,53 @@ mod tests {
     fn command_definition_is_consistent() {
         Cli::command().debug_assert();
     }
+}
+
+/// Working with a corpus index.
+#[derive(Debug, Subcommand)]
+pub enum CorpusCommand {
+    /// Read every MIDI, MusicXML and audio file under a folder and write an index.
+    #[command(after_long_help = "Examples:
+  collatio corpus build demo/corpus -o target/demo/corpus.idx
+  collatio search new-song.musicxml --corpus target/demo/corpus.idx")]
+    Build(BuildArgs),
+}
+
+/// `corpus build`.
+#[derive(Debug, Args)]
+pub struct BuildArgs {
+    /// Folder to read (recursively; hidden files and folders are skipped).
+    pub dir: PathBuf,
+    /// Index file to write (atomically; never over an input).
+    #[arg(short, long, value_name = "FILE")]
+    pub output: PathBuf,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+}
+
+/// `search`.
+#[derive(Debug, Args)]
+pub struct SearchArgs {
+    /// The melody to look for: MusicXML, .mxl, MIDI or audio.
+    pub query: PathBuf,
+    /// Corpus index written by `collatio corpus build`.
+    #[arg(long, value_name = "FILE")]
+    pub corpus: PathBuf,
+    /// Melody of the query, e.g. part=P1,bars=9-16.
+    #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
+    pub select: Option<SelectionSpec>,
+    /// Best matches listed.
+    #[arg(long, default_value_t = 10, help_heading = "SEARCH")]
+    pub top: usize,
+    /// Candidates retrieved by shared figures and then aligned in full (raise it to look
+    /// deeper in corpora full of near-duplicates; each costs one full alignment).
+    #[arg(long, default_value_t = 20, help_heading = "SEARCH")]
+    pub candidates: usize,
+    #[command(flatten)]
+    pub alignment: AlignmentArgs,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
+    pub format: OutputFormat,
 }

@@ -11,6 +11,8 @@ use anyhow::Result;
 use args::{Cli, Command, CompareArgs, InspectArgs, OutputFormat};
 use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
+use collatio::pipeline::{compare_works, CorpusRef};
+use collatio::report::output::{same_file, write_atomic};
 use std::io::Write;
 
 /// Success.
@@ -53,8 +55,12 @@ fn exit_code_of(error: &anyhow::Error) -> i32 {
         }) => EXIT_USAGE,
         Some(_) => EXIT_INPUT,
         None if error.downcast_ref::<args::UsageError>().is_some() => EXIT_USAGE,
-        None => match error.downcast_ref::<collatio::report::exhibit::ExhibitError>() {
-            Some(e) if e.is_usage() => EXIT_USAGE,
+        None => match (
+            error.downcast_ref::<collatio::report::exhibit::ExhibitError>(),
+            error.downcast_ref::<collatio::report::output::OutputError>(),
+        ) {
+            (Some(e), _) if e.is_usage() => EXIT_USAGE,
+            (_, Some(e)) if e.is_usage() => EXIT_USAGE,
             _ => EXIT_INPUT,
         },
     }
@@ -64,14 +70,14 @@ fn run(cli: Cli) -> Result<i32> {
     match cli.command {
         Command::Inspect(args) => inspect(*args),
         Command::Compare(args) => compare(*args),
-        Command::Corpus(corpus::CorpusCommand::Build(args)) => corpus::build(&args),
+        Command::Corpus(args::CorpusCommand::Build(args)) => corpus::build(&args),
         Command::Search(args) => corpus::search(&args),
     }
 }
 
 fn compare(args: CompareArgs) -> Result<i32> {
     let (options_a, options_b) = args.read_options()?;
-    let params = args.alignment.params();
+    let settings = args.settings()?;
     // Output options are checked before any file is read.
     let exhibit = if args.exhibit.any() {
         let epoch = std::env::var("SOURCE_DATE_EPOCH").ok();
@@ -79,64 +85,39 @@ fn compare(args: CompareArgs) -> Result<i32> {
     } else {
         None
     };
-    if !(0.0..=1.0).contains(&args.harmony.harmony_max_p) {
-        return Err(args::UsageError("--harmony-max-p must lie between 0 and 1".into()).into());
-    }
-    let mut a = read_file(&args.a, &options_a)?;
-    let mut b = read_file(&args.b, &options_b)?;
-    let synchronisation = if args.harmony.keep_recording_bars {
-        None
-    } else {
-        follow_score(&mut a, &mut b)
-    };
+    let a = read_file(&args.a, &options_a)?;
+    let b = read_file(&args.b, &options_b)?;
     let index = match &args.statistics.corpus {
         Some(path) => Some(corpus::load_index(path)?),
         None => None,
     };
-    let mut result = collatio::compare::compare(&a, &b, &params);
-    result.synchronisation = synchronisation;
-    let (seq_a, seq_b) = (
-        collatio::features::Sequence::from_piece(&a),
-        collatio::features::Sequence::from_piece(&b),
-    );
-    collatio::stats::null::assess(
-        &mut result,
-        &seq_a,
-        &seq_b,
-        &params,
-        &args.statistics.null_params(),
-    );
-    if let (Some(index), Some(path)) = (&index, &args.statistics.corpus) {
-        collatio::stats::corpus::annotate(
-            &mut result,
-            &seq_a,
-            &seq_b,
-            index,
-            &path.display().to_string(),
-            &params,
-        );
-    }
-    if !args.harmony.no_harmony {
-        collatio::compare::harmony::add_harmony(&mut result, &a, &b, &args.harmony.params());
-    }
+    let index_path = args
+        .statistics
+        .corpus
+        .as_ref()
+        .map(|p| p.display().to_string());
+    let corpus = index
+        .as_ref()
+        .zip(index_path.as_deref())
+        .map(|(index, path)| CorpusRef { index, path });
+    let findings = compare_works(a, b, &settings, corpus);
     if let Some((options, outputs)) = &exhibit {
-        let written =
-            collatio::report::exhibit::write_exhibit(&a, &b, &params, &result, options, outputs)?;
+        let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;
         for path in &written.files {
             eprintln!("collatio: wrote {}", path.display());
         }
     }
     let text = match args.format {
-        OutputFormat::Text => collatio::report::compare::render_text(&a, &b, &result),
+        OutputFormat::Text => collatio::report::compare::render_text(&findings),
         OutputFormat::Json => {
-            let record = collatio::report::compare::record(&a, &b, &params, &result);
+            let record = collatio::report::compare::record(&findings);
             let mut json = serde_json::to_string_pretty(&record)?;
             json.push('\n');
             json
         }
     };
     let mut warned = false;
-    for (path, piece) in [(&args.a, &a), (&args.b, &b)] {
+    for (path, piece) in [(&args.a, &findings.a), (&args.b, &findings.b)] {
         for warning in &piece.warnings {
             warned = true;
             eprintln!("collatio: warning: {}: {warning}", path.display());
@@ -146,56 +127,23 @@ fn compare(args: CompareArgs) -> Result<i32> {
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
 }
 
-/// When one work is a recording and the other a score or MIDI file, aligns the recording to
-/// the score and, if it performs it, gives it the score's bars.
-fn follow_score(
-    a: &mut collatio::timeline::Piece,
-    b: &mut collatio::timeline::Piece,
-) -> Option<collatio::compare::sync::SyncSummary> {
-    let params = collatio::align::sync::SyncParams::default();
-    match (
-        a.provenance.format.is_audio(),
-        b.provenance.format.is_audio(),
-    ) {
-        (false, true) => collatio::compare::sync::follow_score(a, b, "a", &params),
-        (true, false) => collatio::compare::sync::follow_score(b, a, "b", &params),
-        _ => None,
-    }
-}
-
-/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically (a temporary
-/// file in the same folder, then a rename), refusing to overwrite the input.
+/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically, refusing to
+/// overwrite the input.
 fn export_midi(
     piece: &collatio::timeline::Piece,
     input: &std::path::Path,
     target: &std::path::Path,
 ) -> Result<()> {
-    let same = match (std::fs::canonicalize(input), std::fs::canonicalize(target)) {
-        (Ok(a), Ok(b)) => a == b,
-        _ => false,
-    };
-    if same {
+    if same_file(input, target) {
         return Err(args::UsageError(format!(
             "--export-midi {} would overwrite the input",
             target.display()
         ))
         .into());
     }
-    let bytes = collatio::audio::export::melody_to_smf(piece)?;
-    let folder = match target.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => std::path::PathBuf::from("."),
-    };
-    let name = target
-        .file_name()
-        .map_or_else(|| "melody.mid".into(), |n| n.to_string_lossy().into_owned());
-    let temporary = folder.join(format!(".{name}.{}.tmp", std::process::id()));
-    std::fs::write(&temporary, &bytes)
-        .and_then(|()| std::fs::rename(&temporary, target))
-        .map_err(|e| {
-            let _ = std::fs::remove_file(&temporary);
-            anyhow::anyhow!("cannot write {}: {e}", target.display())
-        })?;
+    let bytes = collatio::report::export::melody_to_smf(piece)?;
+    write_atomic(target, &bytes)
+        .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", target.display()))?;
     Ok(())
 }
 

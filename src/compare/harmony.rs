@@ -3,16 +3,15 @@
 //! passages it confirms marked.
 //!
 //! A harmonic passage *confirms* a melodic one when their spans overlap in both works by at
-//! least half of the shorter span on each side; the melodic passage then lists `harmony`
-//! among its evidence. Harmonic passages that confirm none stand on their own: shared chords
+//! least half of the shorter span on each side (the first such melodic passage, by rank). Harmonic passages that confirm none stand on their own: shared chords
 //! without a shared tune (a progression, an accompaniment figure) or a shared tune the melody
 //! reading missed (for example in a recording of a full arrangement).
 
-use super::Comparison;
-use crate::theory::describe_transposition;
+use super::Passage;
 use crate::align::harmony::{compare_harmony, HarmonyParams};
 use crate::features::chroma::chroma_of;
-use crate::timeline::Piece;
+use crate::theory::describe_transposition;
+use crate::timeline::{ChromaSource, Piece};
 use serde::Serialize;
 
 /// Where a harmonic passage lies in one work.
@@ -50,8 +49,8 @@ pub struct HarmonicPassage {
 /// The harmonic side of a comparison.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct HarmonicEvidence {
-    /// Where each work's chroma comes from: `recording` or `notes`.
-    pub sources: [&'static str; 2],
+    /// Where each work's chroma comes from.
+    pub sources: [ChromaSource; 2],
     /// B's key relative to A's by the optimal transposition index, −5 … +6 semitones.
     pub transposition_semitones: i32,
     /// The same as an interval and direction.
@@ -71,9 +70,14 @@ pub struct HarmonicEvidence {
     pub passages: Vec<HarmonicPassage>,
 }
 
-/// Compares the harmony of two pieces, stores the evidence in `result` and marks the melodic
-/// passages it confirms.
-pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &HarmonyParams) {
+/// Compares the harmony of two pieces, and names the melodic passage (of `melodic`, strongest
+/// first) that each harmonic passage confirms.
+pub fn harmonic_evidence(
+    a: &Piece,
+    b: &Piece,
+    params: &HarmonyParams,
+    melodic: &[Passage],
+) -> HarmonicEvidence {
     let chroma_a = chroma_of(a);
     let chroma_b = chroma_of(b);
     let found = compare_harmony(&chroma_a, &chroma_b, params);
@@ -97,18 +101,15 @@ pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &Harmo
         })
         .collect();
     for h in &mut passages {
-        let confirmed = result.passages.iter_mut().find(|p| {
-            overlaps(h.a.seconds, [p.a.onset_seconds, p.a.end_seconds])
-                && overlaps(h.b.seconds, [p.b.onset_seconds, p.b.end_seconds])
-        });
-        if let Some(p) = confirmed {
-            h.confirms = Some(p.rank);
-            if !p.evidence.contains(&"harmony") {
-                p.evidence.push("harmony");
-            }
-        }
+        h.confirms = melodic
+            .iter()
+            .find(|p| {
+                overlaps(h.a.seconds, [p.a.onset_seconds, p.a.end_seconds])
+                    && overlaps(h.b.seconds, [p.b.onset_seconds, p.b.end_seconds])
+            })
+            .map(|p| p.rank);
     }
-    result.harmony = Some(HarmonicEvidence {
+    HarmonicEvidence {
         sources: [chroma_a.source, chroma_b.source],
         transposition_semitones: found.transposition_semitones,
         transposition: describe_transposition(found.transposition_semitones),
@@ -118,7 +119,7 @@ pub fn add_harmony(result: &mut Comparison, a: &Piece, b: &Piece, params: &Harmo
         null_max: found.null_max,
         parameters: params.clone(),
         passages,
-    });
+    }
 }
 
 /// A time span of a piece with the bars it covers: a bar line within `blur` seconds after the

@@ -18,7 +18,9 @@
 //!   aligned with itself, capped to [0, 1]: the share of the shorter melody's possible evidence
 //!   that the shared passages carry.
 
+pub mod differences;
 pub mod harmony;
+pub mod recurrence;
 pub mod sync;
 
 use crate::align::{align, AlignParams, Alignment, Step};
@@ -26,6 +28,34 @@ use crate::features::Sequence;
 use crate::theory::{describe_transposition, key_name};
 use crate::timeline::{Note, Piece};
 use serde::Serialize;
+
+/// One of the two works compared.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Side {
+    /// The first work.
+    A,
+    /// The second work.
+    B,
+}
+
+impl Side {
+    /// The other work.
+    pub fn other(self) -> Side {
+        match self {
+            Side::A => Side::B,
+            Side::B => Side::A,
+        }
+    }
+
+    /// The letter, `A` or `B`.
+    pub fn letter(self) -> &'static str {
+        match self {
+            Side::A => "A",
+            Side::B => "B",
+        }
+    }
+}
 
 /// Log-ratio tolerance under which two rhythms count as the same (as in the pair score).
 const RHYTHM_SAME: f64 = 0.1;
@@ -45,26 +75,6 @@ pub struct Comparison {
     pub unmatched_a: usize,
     /// Notes of B's melody inside no passage.
     pub unmatched_b: usize,
-    /// The null model behind the passages' significance, when computed.
-    pub null_model: Option<crate::stats::null::NullSummary>,
-    /// The reference corpus consulted, when one was given.
-    pub corpus: Option<CorpusSummary>,
-    /// Evidence from the two pieces' chroma, when computed.
-    pub harmony: Option<harmony::HarmonicEvidence>,
-    /// How a recording follows a score, when one side is each.
-    pub synchronisation: Option<sync::SyncSummary>,
-}
-
-/// The reference corpus a comparison was weighed against.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct CorpusSummary {
-    /// Index file as given.
-    pub path: String,
-    /// Melodies in the corpus.
-    pub melodies: usize,
-    /// Corpus-weighted similarity of the two melodies in [0, 1]: shared figures weighted by
-    /// their rarity in the corpus (after Müllensiefen & Pendzich 2009; `docs/statistics.md`).
-    pub weighted_similarity: f64,
 }
 
 /// Where a passage lies in one work.
@@ -109,44 +119,42 @@ pub struct Agreement {
     pub metric_position: f64,
 }
 
+/// What one aligned step pairs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PairKind {
+    /// One note each side, the same pitch class under the transposition.
+    Match,
+    /// One note each side, another pitch class.
+    Mismatch,
+    /// One note of A against repeated notes of B (a note split).
+    Fragmentation,
+    /// Repeated notes of A against one note of B (notes merged).
+    Consolidation,
+    /// A note of A with no counterpart.
+    OnlyA,
+    /// A note of B with no counterpart.
+    OnlyB,
+}
+
+impl PairKind {
+    /// Whether notes of both works take part.
+    pub fn is_aligned(self) -> bool {
+        !matches!(self, PairKind::OnlyA | PairKind::OnlyB)
+    }
+}
+
 /// One aligned step, as melody note indices of each work.
 #[derive(Debug, Clone, Serialize)]
 pub struct PairRecord {
-    /// `match` (same pitch class), `mismatch`, `fragmentation`, `consolidation`, `only_a`,
-    /// `only_b`.
-    pub kind: &'static str,
+    /// What the step pairs.
+    pub kind: PairKind,
     /// Melody note indices of A (empty for `only_b`).
     pub a: Vec<usize>,
     /// Melody note indices of B (empty for `only_a`).
     pub b: Vec<usize>,
     /// Whether the pitch classes agree under the transposition.
     pub equal: bool,
-}
-
-/// How unlikely a passage's score is between unrelated melodies of the same make-up
-/// (filled in by the statistics stage; see `docs/statistics.md`).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Significance {
-    /// Expected number of passages scoring at least this high between unrelated melodies of
-    /// these lengths and make-up.
-    pub e_value: f64,
-    /// Probability that the best unrelated passage scores at least this high:
-    /// 1 − exp(−E).
-    pub p_value: f64,
-    /// Share of the shuffled pairs whose best passage scored at least this high, with the
-    /// usual +1 correction: (count + 1) / (shuffles + 1).
-    pub empirical_p: f64,
-}
-
-/// How common a passage's figure is in a reference corpus (filled in when a corpus is given).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Commonness {
-    /// Melodies in the corpus.
-    pub corpus_melodies: usize,
-    /// Melodies containing the figure exactly (same intervals and rhythm).
-    pub exact: usize,
-    /// Melodies containing it within the alignment's tolerance.
-    pub similar: usize,
 }
 
 /// One shared passage.
@@ -175,13 +183,6 @@ pub struct Passage {
     pub agreement: Agreement,
     /// The alignment path.
     pub pairs: Vec<PairRecord>,
-    /// Chance of such a score between unrelated melodies, when computed.
-    pub significance: Option<Significance>,
-    /// How common the figure is in a reference corpus, when one is given.
-    pub commonness: Option<Commonness>,
-    /// The evidence that found the passage: `melody`, and `harmony` when a harmonic passage
-    /// covers the same stretch of both works.
-    pub evidence: Vec<&'static str>,
 }
 
 /// Compares the selected melodies of two pieces.
@@ -211,10 +212,6 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         unmatched_a: covered(seq_a.len(), alignments.iter().map(|x| x.a_range).collect()),
         unmatched_b: covered(seq_b.len(), alignments.iter().map(|x| x.b_range).collect()),
         passages,
-        null_model: None,
-        corpus: None,
-        harmony: None,
-        synchronisation: None,
     }
 }
 
@@ -297,17 +294,27 @@ fn passage(
         let (kind, av, bv, first_a, first_b) = match *step {
             Step::Pair { a, b } => {
                 let e = equal(a, b);
-                (if e { "match" } else { "mismatch" }, vec![a], vec![b], a, b)
+                (
+                    if e {
+                        PairKind::Match
+                    } else {
+                        PairKind::Mismatch
+                    },
+                    vec![a],
+                    vec![b],
+                    a,
+                    b,
+                )
             }
             Step::Fragmentation { a, b_first, b_last } => (
-                "fragmentation",
+                PairKind::Fragmentation,
                 vec![a],
                 (b_first..=b_last).collect(),
                 a,
                 b_first,
             ),
             Step::Consolidation { a_first, a_last, b } => (
-                "consolidation",
+                PairKind::Consolidation,
                 (a_first..=a_last).collect(),
                 vec![b],
                 a_first,
@@ -316,7 +323,7 @@ fn passage(
             Step::OnlyA { a } => {
                 only_a += 1;
                 pairs.push(PairRecord {
-                    kind: "only_a",
+                    kind: PairKind::OnlyA,
                     a: vec![a],
                     b: Vec::new(),
                     equal: false,
@@ -326,7 +333,7 @@ fn passage(
             Step::OnlyB { b } => {
                 only_b += 1;
                 pairs.push(PairRecord {
-                    kind: "only_b",
+                    kind: PairKind::OnlyB,
                     a: Vec::new(),
                     b: vec![b],
                     equal: false,
@@ -439,8 +446,5 @@ fn passage(
             metric_position,
         },
         pairs,
-        significance: None,
-        commonness: None,
-        evidence: vec!["melody"],
     }
 }

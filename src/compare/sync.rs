@@ -2,11 +2,12 @@
 //! file) and the other a recording, the recording is aligned to the score by chroma DTW
 //! ([`crate::align::sync`]), against the chroma of all the score's parts, or, when that does
 //! not fit, of its melody alone (a recording of only the tune). When the recording performs
-//! the score, its beat-tracked bar grid
-//! is replaced by the score's bars at the times the alignment gives them, and every note of
-//! the recording takes its bar and its position in the bar from the score; passages are then
-//! reported in the score's bar numbers on both sides and in the recording's seconds.
+//! the score, a copy of the recording is made whose beat-tracked bar grid is replaced by the
+//! score's bars at the times the alignment gives them, every note taking its bar and its
+//! position in the bar from the score; passages are then reported in the score's bar numbers
+//! on both sides and in the recording's seconds. The recording as read is left as it was.
 
+use super::Side;
 use crate::align::sync::{synchronise, SyncParams, Synchronisation};
 use crate::features::chroma::{chroma_of, melody_chroma_of};
 use crate::timeline::{Bar, Piece, TimeSignature};
@@ -27,10 +28,10 @@ pub struct BarTime {
 /// The alignment of a recording to a score, as a comparison reports it.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SyncSummary {
-    /// Which work is the score: `a` or `b`.
-    pub score: &'static str,
-    /// Which work is the recording: `a` or `b`.
-    pub recording: &'static str,
+    /// Which work is the score.
+    pub score: Side,
+    /// Which work is the recording.
+    pub recording: Side,
     /// Whether the recording performs the score: its chroma follows the score's (see
     /// [`crate::align::sync`]) and its melody agrees with the score's along the path.
     pub follows: bool,
@@ -54,14 +55,23 @@ pub struct SyncSummary {
     pub parameters: SyncParams,
 }
 
-/// Aligns `recording` to `score`; when it follows, gives the recording the score's bars.
-/// `score_side` names the score's side (`a` or `b`). `None` when either chroma is too short.
+/// A recording aligned to a score.
+#[derive(Debug, Clone)]
+pub struct ScoreFollowing {
+    /// What the alignment found.
+    pub summary: SyncSummary,
+    /// The recording on the score's bars, when it follows the score closely enough.
+    pub rebarred: Option<Piece>,
+}
+
+/// Aligns `recording` to `score`; when it follows, also returns the recording on the score's
+/// bars. `score_side` names the score's side. `None` when either chroma is too short.
 pub fn follow_score(
     score: &Piece,
-    recording: &mut Piece,
-    score_side: &'static str,
+    recording: &Piece,
+    score_side: Side,
     params: &SyncParams,
-) -> Option<SyncSummary> {
+) -> Option<ScoreFollowing> {
     // The recording may hold every part of the score or only its melody (a solo take of the
     // tune): the score's full chroma first, its melody's when the full one does not follow.
     let heard = chroma_of(recording);
@@ -91,12 +101,14 @@ pub fn follow_score(
     let bars_from_score = follows && bar_map.len() >= 2;
     // A path through another work places nothing: no bar map unless the recording follows.
     let bar_map = if follows { bar_map } else { Vec::new() };
-    if bars_from_score {
-        take_score_bars(recording, score, &sync);
-    }
-    Some(SyncSummary {
+    let rebarred = if bars_from_score {
+        with_score_bars(recording, score, &sync)
+    } else {
+        None
+    };
+    let summary = SyncSummary {
         score: score_side,
-        recording: if score_side == "a" { "b" } else { "a" },
+        recording: score_side.other(),
         follows,
         cost_ratio: sync.cost_ratio,
         melody_agreement: agreement,
@@ -106,7 +118,8 @@ pub fn follow_score(
         bars_from_score,
         bar_map,
         parameters: params.clone(),
-    })
+    };
+    Some(ScoreFollowing { summary, rebarred })
 }
 
 /// Least share of the recording's melody notes that must agree with the score's melody for
@@ -153,9 +166,10 @@ pub fn melody_agreement(score: &Piece, recording: &Piece, sync: &Synchronisation
     (agreeing as f64 / recording.melody.len() as f64, agreeing)
 }
 
-/// Replaces the recording's bars with the score's bars the path reaches, and gives each note
-/// the bar and the position in the bar its time has in the score.
-fn take_score_bars(recording: &mut Piece, score: &Piece, sync: &Synchronisation) {
+/// A copy of the recording whose bars are the score's bars the path reaches, each note taking
+/// the bar and the position in the bar its time has in the score. `None` when the path places
+/// fewer than two bars.
+fn with_score_bars(recording: &Piece, score: &Piece, sync: &Synchronisation) -> Option<Piece> {
     let mut bars: Vec<Bar> = Vec::new();
     let mut source: Vec<usize> = Vec::new();
     for (k, bar) in score.bars.iter().enumerate() {
@@ -181,8 +195,9 @@ fn take_score_bars(recording: &mut Piece, score: &Piece, sync: &Synchronisation)
         source.push(k);
     }
     if bars.len() < 2 {
-        return;
+        return None;
     }
+    let mut recording = recording.clone();
     let end_ticks = recording
         .melody
         .iter()
@@ -239,4 +254,5 @@ fn take_score_bars(recording: &mut Piece, score: &Piece, sync: &Synchronisation)
          the alignment",
         sync.cost_ratio
     ));
+    Some(recording)
 }

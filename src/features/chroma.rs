@@ -136,7 +136,7 @@ fn chroma_of_notes<'a>(notes: impl Iterator<Item = &'a Note> + Clone) -> ChromaL
     ChromaLayer {
         hop_seconds: HOP_SECONDS,
         tuning: 0.0,
-        source: "notes",
+        source: crate::timeline::ChromaSource::Notes,
         frames,
         onsets,
         beats: Vec::new(),

@@ -300,7 +300,7 @@ mod tests {
         ChromaLayer {
             hop_seconds: 0.1,
             tuning: 0.0,
-            source: "notes",
+            source: crate::timeline::ChromaSource::Notes,
             frames,
             onsets: Vec::new(),
             beats: Vec::new(),

@@ -50,7 +50,7 @@ pub fn container_name(format: Format) -> &'static str {
         Format::OggVorbis => "Ogg",
         Format::Aac => "MP4/AAC",
         Format::Aiff => "AIFF",
-        Format::Midi | Format::MusicXml | Format::Mxl => "non-audio",
+        Format::Midi | Format::MusicXml | Format::Mxl | Format::IndexedMelody => "non-audio",
     }
 }
 
@@ -521,7 +521,7 @@ fn chroma_layer(decoded: &Decoded, analysis: &Analysis, beats: Vec<f64>) -> Chro
     ChromaLayer {
         hop_seconds: analysis.chroma.hop_seconds,
         tuning: analysis.chroma.tuning,
-        source: "recording",
+        source: crate::timeline::ChromaSource::Recording,
         frames,
         onsets,
         beats,

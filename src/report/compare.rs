@@ -1,10 +1,15 @@
 //! The `compare` report: a short table of passages for people, or the JSON record
 //! (schema in `docs/compare-json.md`).
 
+use super::cautions::shuffle_caution;
+use super::format::{bar_span, format_e_value, trim_number};
 use crate::align::AlignParams;
-use crate::compare::{Comparison, Passage};
-use crate::theory::pitch_name;
-use crate::timeline::Piece;
+use crate::compare::harmony::HarmonicSide;
+use crate::compare::sync::MIN_AGREEING_NOTES;
+use crate::compare::{PairKind, PassageSide};
+use crate::findings::{Finding, Findings};
+use crate::theory::{describe_transposition, pitch_name};
+use crate::timeline::{ChromaSource, Piece};
 use serde::Serialize;
 
 /// Version of the compare JSON layout.
@@ -47,9 +52,9 @@ pub struct CompareRecord {
     /// The null model behind the E-values (`null` when not computed).
     pub null_model: Option<crate::stats::null::NullSummary>,
     /// The reference corpus consulted (`null` when none was given).
-    pub corpus: Option<crate::compare::CorpusSummary>,
+    pub corpus: Option<crate::corpus::CorpusSummary>,
     /// Shared passages, strongest first.
-    pub passages: Vec<Passage>,
+    pub passages: Vec<Finding>,
     /// Harmonic (chroma) evidence (`null` when not computed).
     pub harmony: Option<crate::compare::harmony::HarmonicEvidence>,
     /// The alignment of a recording to a score (`null` unless one work is each).
@@ -72,7 +77,8 @@ fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
 }
 
 /// Builds the record.
-pub fn record(a: &Piece, b: &Piece, params: &AlignParams, result: &Comparison) -> CompareRecord {
+pub fn record(findings: &Findings) -> CompareRecord {
+    let (a, b, result) = (&findings.a, &findings.b, findings);
     CompareRecord {
         schema_version: COMPARE_SCHEMA_VERSION,
         tool: super::inspect::ToolInfo {
@@ -81,7 +87,7 @@ pub fn record(a: &Piece, b: &Piece, params: &AlignParams, result: &Comparison) -
         },
         a: work(a, result.notes_a, result.unmatched_a),
         b: work(b, result.notes_b, result.unmatched_b),
-        parameters: params.clone(),
+        parameters: findings.settings.align.clone(),
         similarity: result.similarity,
         null_model: result.null_model.clone(),
         corpus: result.corpus.clone(),
@@ -91,17 +97,8 @@ pub fn record(a: &Piece, b: &Piece, params: &AlignParams, result: &Comparison) -
     }
 }
 
-fn bars(side: &crate::compare::PassageSide) -> String {
-    if side.bars[0] == side.bars[1] {
-        format!("bar {}", side.bars[0])
-    } else {
-        format!("bars {}-{}", side.bars[0], side.bars[1])
-    }
-}
-
-fn fmt_beat(value: f64) -> String {
-    let text = format!("{value:.2}");
-    text.trim_end_matches('0').trim_end_matches('.').to_string()
+fn bars(side: &PassageSide) -> String {
+    bar_span(&side.bars[0], &side.bars[1], '-')
 }
 
 fn note_name(piece: &Piece, index: usize) -> String {
@@ -114,17 +111,9 @@ fn note_name(piece: &Piece, index: usize) -> String {
         })
 }
 
-/// An E-value in a short form: `3e-29`, `0.004`, `1.2`.
-pub fn format_e_value(e: f64) -> String {
-    if e >= 0.01 {
-        format!("{e:.2}")
-    } else {
-        format!("{e:.0e}")
-    }
-}
-
 /// The human listing.
-pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
+pub fn render_text(findings: &Findings) -> String {
+    let (a, b, result) = (&findings.a, &findings.b, findings);
     let mut out = String::new();
     let describe = |tag: &str, piece: &Piece, notes: usize| {
         let title = piece
@@ -155,7 +144,8 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
         "\n {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>8}  {:>5}  {:>5}  {:>8}\n",
         "#", "in A", "in B", "notes A/B", "B relative to A", "tempo", "score", "PMI", "E-value"
     ));
-    for p in &result.passages {
+    for f in &result.passages {
+        let p = &f.passage;
         out.push_str(&format!(
             " {:>2}  {:<16} {:<16} {:>9}  {:<24} {:>7.2}x  {:>5}  {:>5.1}  {:>8}\n",
             p.rank,
@@ -166,7 +156,7 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
             p.tempo_ratio,
             p.score,
             p.pmi,
-            p.significance
+            f.significance
                 .as_ref()
                 .map_or_else(|| "-".to_string(), |s| format_e_value(s.e_value))
         ));
@@ -182,25 +172,25 @@ pub fn render_text(a: &Piece, b: &Piece, result: &Comparison) -> String {
              highest {})\n",
             null.shuffles, null.seed, null.mean, null.sd, null.max
         ));
-        let caution = super::exhibit::shuffle_caution(null);
+        let caution = shuffle_caution(null);
         if !caution.is_empty() {
             out.push_str(&format!(" {caution}\n"));
         }
     }
-    for p in &result.passages {
-        out.push_str(&render_passage(a, b, p));
+    for f in &result.passages {
+        out.push_str(&render_passage(a, b, &f.passage));
     }
     out.push_str(&render_harmony(result));
     out
 }
 
 /// How a recording follows a score, when one work is each.
-fn render_synchronisation(result: &Comparison) -> String {
+fn render_synchronisation(result: &Findings) -> String {
     let Some(s) = &result.synchronisation else {
         return String::new();
     };
-    let recording = s.recording.to_uppercase();
-    let score = s.score.to_uppercase();
+    let recording = s.recording.letter();
+    let score = s.score.letter();
     if !s.follows {
         return format!(
             "\n{recording} (recording) does not follow {score} (score) closely enough to take its \
@@ -210,7 +200,7 @@ fn render_synchronisation(result: &Comparison) -> String {
             s.cost_ratio,
             100.0 * s.melody_agreement,
             s.agreeing_notes,
-            crate::compare::sync::MIN_AGREEING_NOTES
+            MIN_AGREEING_NOTES
         );
     }
     let (first, last) = (s.bar_map.first(), s.bar_map.last());
@@ -221,7 +211,7 @@ fn render_synchronisation(result: &Comparison) -> String {
         s.cost_ratio,
         100.0 * s.melody_agreement,
         s.agreeing_notes,
-        crate::theory::describe_transposition(s.transposition_semitones),
+        describe_transposition(s.transposition_semitones),
         first.map_or("", |b| b.label.as_str()),
         last.map_or("", |b| b.label.as_str()),
         first.map_or(0.0, |b| b.recording_seconds),
@@ -235,7 +225,7 @@ fn render_synchronisation(result: &Comparison) -> String {
 }
 
 /// The harmonic passages, when computed.
-fn render_harmony(result: &Comparison) -> String {
+fn render_harmony(result: &Findings) -> String {
     let Some(h) = &result.harmony else {
         return String::new();
     };
@@ -256,10 +246,10 @@ fn render_harmony(result: &Comparison) -> String {
         "#", "in A", "in B", "tempo", "Qmax", "cosine", "p", "confirms"
     ));
     for p in &h.passages {
-        let span = |s: &crate::compare::harmony::HarmonicSide| {
+        let span = |s: &HarmonicSide| {
             format!(
                 "{} ({:.1}–{:.1} s)",
-                bar_span(&s.bars[0], &s.bars[1]),
+                bar_span(&s.bars[0], &s.bars[1], '–'),
                 s.seconds[0],
                 s.seconds[1]
             )
@@ -280,33 +270,24 @@ fn render_harmony(result: &Comparison) -> String {
     out
 }
 
-fn chroma_source(source: &str) -> &'static str {
-    if source == "recording" {
-        "the recording"
-    } else {
-        "all notated parts"
-    }
-}
-
-fn bar_span(first: &str, last: &str) -> String {
-    if first == last {
-        format!("bar {first}")
-    } else {
-        format!("bars {first}–{last}")
+fn chroma_source(source: ChromaSource) -> &'static str {
+    match source {
+        ChromaSource::Recording => "the recording",
+        ChromaSource::Notes => "all notated parts",
     }
 }
 
 /// One passage: where, then the aligned notes in rows with a marker line.
-fn render_passage(a: &Piece, b: &Piece, p: &Passage) -> String {
+fn render_passage(a: &Piece, b: &Piece, p: &crate::compare::Passage) -> String {
     let mut out = format!(
         "\nPassage {}: A {} (beat {} to beat {}) and B {} (beat {} to beat {})\n",
         p.rank,
         bars(&p.a),
-        fmt_beat(p.a.start_beat),
-        fmt_beat(p.a.end_beat),
+        trim_number(p.a.start_beat, 2),
+        trim_number(p.a.end_beat, 2),
         bars(&p.b),
-        fmt_beat(p.b.start_beat),
-        fmt_beat(p.b.end_beat),
+        trim_number(p.b.start_beat, 2),
+        trim_number(p.b.end_beat, 2),
     );
     let keys = match (&p.a.key, &p.b.key) {
         (Some(x), Some(y)) => format!(" (A in {x}, B in {y})"),
@@ -318,7 +299,7 @@ fn render_passage(a: &Piece, b: &Piece, p: &Passage) -> String {
         if (p.note_value_ratio - 1.0).abs() < 0.01 {
             "same note values".to_string()
         } else {
-            format!("B's note values are {} times A's", fmt_beat(p.note_value_ratio))
+            format!("B's note values are {} times A's", trim_number(p.note_value_ratio, 2))
         },
         100.0 * p.agreement.pitch_class,
         100.0 * p.agreement.interval,
@@ -335,9 +316,9 @@ fn render_passage(a: &Piece, b: &Piece, p: &Passage) -> String {
                 .join("+")
         };
         let mark = match pair.kind {
-            "match" => '=',
-            "mismatch" => 'x',
-            "fragmentation" | "consolidation" => {
+            PairKind::Match => '=',
+            PairKind::Mismatch => 'x',
+            PairKind::Fragmentation | PairKind::Consolidation => {
                 if pair.equal {
                     '~'
                 } else {

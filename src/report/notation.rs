@@ -20,7 +20,7 @@
 //!   triplet note. Lengths that none of these express (rare: quintuplets) are split greedily
 //!   into the nearest values, down to 1/64 of a whole note.
 
-use crate::compare::Passage;
+use crate::compare::{PairKind, Passage};
 use crate::theory::{
     degree, fifths_of, key_name, spell_in_key, spelling_shift, tonic, KeyMode, Spelling, Step,
 };
@@ -469,7 +469,7 @@ fn marks(passage: &Passage, side_a: bool, len: usize) -> Vec<Option<Mark>> {
     let mut out = vec![None; len];
     for pair in &passage.pairs {
         let notes = if side_a { &pair.a } else { &pair.b };
-        let mark = if pair.equal && !matches!(pair.kind, "only_a" | "only_b" | "mismatch") {
+        let mark = if pair.equal && pair.kind.is_aligned() && pair.kind != PairKind::Mismatch {
             Mark::Matched
         } else {
             Mark::Differs

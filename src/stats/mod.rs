@@ -1,5 +1,4 @@
-//! Statistics: how unlikely a passage is between unrelated melodies, and how common its
-//! figure is in a corpus of prior art.
+//! Statistics: how unlikely a passage is between unrelated melodies.
 //!
 //! - [`shuffle`]: doublet-preserving shuffles of a melody (Altschul & Erickson 1985).
 //! - [`gumbel`]: the extreme-value distribution of local alignment maxima (Karlin & Altschul
@@ -13,7 +12,6 @@
 //! assert!((g.e_value(60.0) - (-2.0f64).exp()).abs() < 1e-12);
 //! ```
 
-pub mod corpus;
 pub mod gumbel;
 pub mod null;
 pub mod shuffle;

@@ -12,12 +12,26 @@
 use super::gumbel::Gumbel;
 use super::shuffle::shuffle_keeping_runs;
 use crate::align::{best_score, AlignParams};
-use crate::compare::{Comparison, Significance};
 use crate::features::Sequence;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
+
+/// How unlikely a passage's score is between unrelated melodies of the same make-up (see
+/// `docs/statistics.md`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Significance {
+    /// Expected number of passages scoring at least this high between unrelated melodies of
+    /// these lengths and make-up.
+    pub e_value: f64,
+    /// Probability that the best unrelated passage scores at least this high:
+    /// 1 − exp(−E).
+    pub p_value: f64,
+    /// Share of the shuffled pairs whose best passage scored at least this high, with the
+    /// usual +1 correction: (count + 1) / (shuffles + 1).
+    pub empirical_p: f64,
+}
 
 /// Parameters of the null model.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -167,22 +181,16 @@ impl NullModel {
     }
 }
 
-/// Fills in the significance of every passage of a comparison and its null summary.
-pub fn assess(
-    comparison: &mut Comparison,
+/// The null model of a pair of melodies, unless it is turned off (`shuffles` 0) or either
+/// melody is empty.
+pub fn null_model(
     a: &Sequence,
     b: &Sequence,
     align: &AlignParams,
     params: &NullParams,
-) {
-    if params.shuffles == 0 || a.is_empty() || b.is_empty() {
-        return;
-    }
-    let model = NullModel::fit(a, b, align, params);
-    for passage in &mut comparison.passages {
-        passage.significance = Some(model.significance(passage.score));
-    }
-    comparison.null_model = Some(model.summary);
+) -> Option<NullModel> {
+    (params.shuffles > 0 && !a.is_empty() && !b.is_empty())
+        .then(|| NullModel::fit(a, b, align, params))
 }
 
 #[cfg(test)]

@@ -104,7 +104,12 @@ pub fn degree(pc_from_tonic: i32, mode: KeyMode) -> &'static str {
 }
 
 /// The diatonic and chromatic shift from one key to another, for transposing spellings.
-pub fn spelling_shift(from: (i32, KeyMode), to_fifths: i32, to_mode: KeyMode, chromatic: i32) -> i32 {
+pub fn spelling_shift(
+    from: (i32, KeyMode),
+    to_fifths: i32,
+    to_mode: KeyMode,
+    chromatic: i32,
+) -> i32 {
     let (_, from_step) = tonic(from.0, from.1);
     let (_, to_step) = tonic(to_fifths, to_mode);
     let base = (to_step - from_step).rem_euclid(7);

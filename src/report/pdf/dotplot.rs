@@ -1,26 +1,11 @@
-//! The dot plot: work A's bars across, work B's bars down, a grey dot wherever three
-//! consecutive intervals of A recur in B (which no transposition changes: the dot plot of
-//! sequence comparison after Gibbs & McIntyre 1970, on intervals instead of letters), and each
-//! passage drawn over it as a tinted rectangle with its alignment path and its rank.
+//! The dot plot: work A's bars across, work B's bars down, a grey dot at every recurrence of a
+//! short interval figure ([`crate::compare::recurrence`]), and each passage drawn over it as a
+//! tinted rectangle with its alignment path and its rank.
 
 use super::layout::{palette, Flow, Rgbf};
 use super::text::Face;
-use crate::compare::Comparison;
+use crate::findings::Findings;
 use crate::timeline::Piece;
-use std::collections::BTreeMap;
-
-/// Most background dots drawn (the first ones in A's order), to keep the file small.
-const MAX_DOTS: usize = 6000;
-/// Consecutive intervals that must agree for a background dot.
-const WORD: usize = 3;
-
-fn intervals(piece: &Piece) -> Vec<i32> {
-    piece
-        .melody
-        .windows(2)
-        .map(|w| (w[1].pitch.0 - w[0].pitch.0).round() as i32)
-        .collect()
-}
 
 /// Bar labels to print along an axis: about `target` of them, on bars whose ordinal is a
 /// multiple of a round step.
@@ -61,7 +46,9 @@ pub fn height(flow: &Flow, a: &Piece, b: &Piece, max: f32) -> f32 {
 }
 
 /// Draws the plot for the whole of both works.
-pub fn draw(flow: &mut Flow, a: &Piece, b: &Piece, result: &Comparison, max_height: f32) {
+/// Draws the plot of `findings` into the flow, at most `max_height` mm tall.
+pub fn draw(flow: &mut Flow, findings: &Findings, max_height: f32) {
+    let (a, b) = (&findings.a, &findings.b);
     let left = flow.geo.left() + 14.0;
     let width = flow.geo.text_width() - 16.0;
     let len_a = span(a);
@@ -120,7 +107,7 @@ pub fn draw(flow: &mut Flow, a: &Piece, b: &Piece, result: &Comparison, max_heig
         palette::INK,
     );
     // Passage rectangles under the dots.
-    for p in &result.passages {
+    for p in findings.passages.iter().map(|f| &f.passage) {
         let (x1, x2) = (x_of(p.a.onset_beats), x_of(p.a.end_beats));
         let (y1, y2) = (y_of(p.b.onset_beats), y_of(p.b.end_beats));
         page.rect(
@@ -132,43 +119,24 @@ pub fn draw(flow: &mut Flow, a: &Piece, b: &Piece, result: &Comparison, max_heig
             Some((palette::NAVY, 0.3)),
         );
     }
-    // Background dots: shared interval words.
-    let ia = intervals(a);
-    let ib = intervals(b);
-    let mut where_b: BTreeMap<&[i32], Vec<usize>> = BTreeMap::new();
-    if ib.len() >= WORD {
-        for j in 0..=ib.len() - WORD {
-            where_b.entry(&ib[j..j + WORD]).or_default().push(j);
-        }
-    }
-    let mut drawn = 0;
+    // Background dots: recurring interval figures.
     let r = 0.4;
-    if ia.len() >= WORD {
-        'outer: for i in 0..=ia.len() - WORD {
-            if let Some(js) = where_b.get(&ia[i..i + WORD]) {
-                for &j in js {
-                    if drawn >= MAX_DOTS {
-                        break 'outer;
-                    }
-                    let (Some(na), Some(nb)) = (a.melody.get(i), b.melody.get(j)) else {
-                        continue;
-                    };
-                    page.ellipse(
-                        x_of(na.onset.0),
-                        y_of(nb.onset.0),
-                        r,
-                        r,
-                        0.0,
-                        Some(palette::GREY),
-                        None,
-                    );
-                    drawn += 1;
-                }
-            }
-        }
+    for &[i, j] in &findings.recurrences {
+        let (Some(na), Some(nb)) = (a.melody.get(i), b.melody.get(j)) else {
+            continue;
+        };
+        page.ellipse(
+            x_of(na.onset.0),
+            y_of(nb.onset.0),
+            r,
+            r,
+            0.0,
+            Some(palette::GREY),
+            None,
+        );
     }
     // Alignment paths over the dots.
-    for p in &result.passages {
+    for p in findings.passages.iter().map(|f| &f.passage) {
         let points: Vec<(f32, f32)> = p
             .pairs
             .iter()

@@ -21,7 +21,9 @@ pub mod layout;
 pub mod staff;
 pub mod text;
 
-use super::exhibit::{context, Exhibit, ExhibitError};
+use super::exhibit::context::context;
+use super::exhibit::options::ExhibitError;
+use super::exhibit::prepared::Exhibit;
 use layout::{palette, Flow, Geometry, Rgbf};
 use text::{parse_blocks, Face};
 
@@ -101,7 +103,7 @@ pub fn render(ex: &Exhibit<'_>) -> Result<(Vec<u8>, usize), ExhibitError> {
     for block in parse_blocks(&dot) {
         flow.block(&block, &mut |f, name| {
             if name == "dotplot" {
-                dotplot::draw(f, ex.a, ex.b, ex.result, max_height);
+                dotplot::draw(f, ex.findings, max_height);
             }
         });
     }

@@ -1,9 +1,11 @@
 //! The exhibit's view of the harmonic evidence and of a recording placed on a score's bars:
 //! plain strings for the `harmony` template.
 
-use super::exhibit::{bars_text, trim_number};
 use crate::compare::harmony::{HarmonicEvidence, HarmonicSide};
 use crate::compare::sync::SyncSummary;
+use crate::report::format::{bars_text, trim_number};
+use crate::theory::describe_transposition;
+use crate::timeline::ChromaSource;
 use serde::Serialize;
 
 /// One harmonic passage as the exhibit prints it.
@@ -77,11 +79,10 @@ pub struct SyncContext {
     pub last_seconds: String,
 }
 
-fn source_words(source: &str) -> String {
-    if source == "recording" {
-        "the recording's spectrum".into()
-    } else {
-        "every notated part".into()
+fn source_words(source: ChromaSource) -> String {
+    match source {
+        ChromaSource::Recording => "the recording's spectrum".into(),
+        ChromaSource::Notes => "every notated part".into(),
     }
 }
 
@@ -154,14 +155,14 @@ pub fn sync_context(summary: Option<&SyncSummary>) -> Option<SyncContext> {
     let first = s.bar_map.first();
     let last = s.bar_map.last();
     Some(SyncContext {
-        score: s.score.to_uppercase(),
-        recording: s.recording.to_uppercase(),
+        score: s.score.letter().to_string(),
+        recording: s.recording.letter().to_string(),
         follows: s.follows,
         bars_from_score: s.bars_from_score,
         cost_ratio: trim_number(s.cost_ratio, 2),
         agreement: trim_number(100.0 * s.melody_agreement, 0),
         agreeing_notes: s.agreeing_notes,
-        transposition: crate::theory::describe_transposition(s.transposition_semitones),
+        transposition: describe_transposition(s.transposition_semitones),
         first_bar: first.map_or_else(String::new, |b| b.label.clone()),
         last_bar: last.map_or_else(String::new, |b| b.label.clone()),
         first_seconds: first.map_or_else(String::new, |b| trim_number(b.recording_seconds, 2)),

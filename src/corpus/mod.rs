@@ -1,0 +1,23 @@
+//! A corpus of prior art: an index of melodies, retrieval by interval-and-rhythm n-grams, and
+//! how common a figure is.
+//!
+//! - [`index`]: the index file, its figures and postings, IDF and candidate retrieval.
+//! - [`melody`]: a melody in and out of the index's slim form.
+//! - [`build`]: an index from a folder of music files.
+//! - [`assess`]: commonness of passages and corpus-weighted similarity for a comparison.
+//!
+//! Search (retrieval, then alignment of every candidate) is a pipeline entry point:
+//! [`crate::pipeline::search`].
+//!
+//! Each melody is kept in a slim form (its notes, bars and key) so that a hit can be aligned and
+//! reported in its own bars without the original file.
+
+pub mod assess;
+pub mod build;
+pub mod index;
+pub mod melody;
+
+pub use assess::{assess, slice, Commonness, CorpusSummary, SIMILAR_CANDIDATES, SIMILAR_SHARE};
+pub use build::{build_from_dir, corpus_files, Built, CORPUS_EXTENSIONS};
+pub use index::{figures, tokens, CorpusIndex, IndexError, MAGIC, NGRAM, VERSION};
+pub use melody::{MelodyEntry, StoredBar, StoredNote};

@@ -1,0 +1,149 @@
+//! Everything a comparison found, as one plain-data model that every renderer reads: the text
+//! report, the JSON record, the PDF exhibit and the passage exports.
+//!
+//! In: the results of the stages before it (the melodic passages from [`crate::compare`], their
+//! chance figures from [`crate::stats`], their commonness from [`crate::corpus`], the harmonic
+//! evidence and the score following). Out: [`Findings`], holding also the two timelines as
+//! compared (a recording that follows a score carries the score's bars) and every setting
+//! used. Nothing here analyses; [`crate::pipeline`] fills it in.
+
+use crate::align::harmony::HarmonyParams;
+use crate::align::sync::SyncParams;
+use crate::align::AlignParams;
+use crate::compare::differences::Difference;
+use crate::compare::harmony::HarmonicEvidence;
+use crate::compare::sync::SyncSummary;
+use crate::compare::Passage;
+use crate::corpus::{Commonness, CorpusSummary};
+use crate::stats::null::{NullParams, NullSummary, Significance};
+use crate::timeline::Piece;
+use serde::Serialize;
+
+/// The evidence that found a passage.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Evidence {
+    /// The melodic alignment.
+    Melody,
+    /// A harmonic passage covering the same stretch of both works.
+    Harmony,
+}
+
+/// One shared passage with everything later stages found about it.
+#[derive(Debug, Clone, Serialize)]
+pub struct Finding {
+    /// Where it lies, its measures and its alignment path.
+    #[serde(flatten)]
+    pub passage: Passage,
+    /// Chance of such a score between unrelated melodies, when computed.
+    pub significance: Option<Significance>,
+    /// How common the figure is in a reference corpus, when one is given.
+    pub commonness: Option<Commonness>,
+    /// The evidence that found the passage: `melody`, and `harmony` when a harmonic passage
+    /// covers the same stretch of both works.
+    pub evidence: Vec<Evidence>,
+    /// The note-level differences within the passage.
+    #[serde(skip)]
+    pub differences: Vec<Difference>,
+}
+
+impl Finding {
+    /// A passage found by the melody alone, with nothing else known about it yet.
+    pub fn melodic(passage: Passage) -> Finding {
+        Finding {
+            passage,
+            significance: None,
+            commonness: None,
+            evidence: vec![Evidence::Melody],
+            differences: Vec::new(),
+        }
+    }
+}
+
+/// Every setting of a comparison: what the report calls the recipe. The default is the
+/// command line's: every stage on, with its default parameters.
+#[derive(Debug, Clone)]
+pub struct CompareSettings {
+    /// Melodic alignment.
+    pub align: AlignParams,
+    /// The shuffle null model (`shuffles` 0 turns it off).
+    pub null: NullParams,
+    /// Harmonic comparison; `None` turns it off.
+    pub harmony: Option<HarmonyParams>,
+    /// Score following of a recording against a score; `None` keeps a recording's own
+    /// (estimated) bars.
+    pub sync: Option<SyncParams>,
+}
+
+impl Default for CompareSettings {
+    fn default() -> Self {
+        CompareSettings {
+            align: AlignParams::default(),
+            null: NullParams::default(),
+            harmony: Some(HarmonyParams::default()),
+            sync: Some(SyncParams::default()),
+        }
+    }
+}
+
+/// What a comparison of two works found.
+#[derive(Debug, Clone)]
+pub struct Findings {
+    /// Work A as compared.
+    pub a: Piece,
+    /// Work B as compared (a recording that follows A carries A's bars).
+    pub b: Piece,
+    /// Every setting used.
+    pub settings: CompareSettings,
+    /// Overall similarity in [0, 1] (see [`crate::compare`]).
+    pub similarity: f64,
+    /// Notes in A's melody.
+    pub notes_a: usize,
+    /// Notes in B's melody.
+    pub notes_b: usize,
+    /// Notes of A's melody inside no passage.
+    pub unmatched_a: usize,
+    /// Notes of B's melody inside no passage.
+    pub unmatched_b: usize,
+    /// Shared passages, strongest first.
+    pub passages: Vec<Finding>,
+    /// The null model behind the passages' significance, when computed.
+    pub null_model: Option<NullSummary>,
+    /// The reference corpus consulted, when one was given.
+    pub corpus: Option<CorpusSummary>,
+    /// Evidence from the two pieces' chroma, when computed.
+    pub harmony: Option<HarmonicEvidence>,
+    /// How a recording follows a score, when one side is each.
+    pub synchronisation: Option<SyncSummary>,
+    /// Note pairs (A, B) from which a short interval figure recurs in the other melody (see
+    /// [`crate::compare::recurrence`]), the dot plot's background.
+    pub recurrences: Vec<[usize; 2]>,
+}
+
+/// One melody of a corpus that shares passages with a query.
+#[derive(Debug, Clone, Serialize)]
+pub struct Hit {
+    /// Path of the melody inside the corpus.
+    pub path: String,
+    /// Title, when the file had one.
+    pub title: Option<String>,
+    /// Similarity to the query in [0, 1] (as `compare` defines it).
+    pub similarity: f64,
+    /// Shared passages, the query as A.
+    pub passages: Vec<Finding>,
+}
+
+/// What a search of a corpus found.
+#[derive(Debug, Clone)]
+pub struct SearchFindings {
+    /// The query as read.
+    pub query: Piece,
+    /// The index file as given.
+    pub corpus: String,
+    /// Melodies in the corpus.
+    pub corpus_melodies: usize,
+    /// Alignment settings used.
+    pub align: AlignParams,
+    /// Best first.
+    pub hits: Vec<Hit>,
+}

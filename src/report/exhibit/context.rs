@@ -1,0 +1,132 @@
+//! The templates' view of an exhibit: every figure as the text it is printed as.
+
+use super::evidence::{harmony_context, sync_context, HarmonyContext, SyncContext};
+use super::params::{param_rows, ParamRow};
+use super::passages::{passage_context, PassageContext};
+use super::prepared::Exhibit;
+use super::works::{work_context, WorkContext};
+use crate::report::cautions::shuffle_caution;
+use crate::report::format::trim_number;
+use serde::Serialize;
+
+/// The whole context of the templates.
+#[derive(Debug, Serialize)]
+pub struct ExhibitContext {
+    /// Tool name.
+    pub tool: String,
+    /// Tool version.
+    pub version: String,
+    /// Case label, or empty.
+    pub case_label: String,
+    /// Date, or empty.
+    pub date: String,
+    /// Paper name.
+    pub paper: String,
+    /// Common key tonic as given.
+    pub common_key: String,
+    /// Work A.
+    pub a: WorkContext,
+    /// Work B.
+    pub b: WorkContext,
+    /// Overall similarity.
+    pub similarity: String,
+    /// Passages.
+    pub passages: Vec<PassageContext>,
+    /// Parameters.
+    pub parameters: Vec<ParamRow>,
+    /// Parameters two to a row, for the cover: `[flag, value, flag, value]`.
+    pub parameter_pairs: Vec<[String; 4]>,
+    /// Any passage with significance computed.
+    pub any_significance: bool,
+    /// Any passage with commonness computed.
+    pub any_corpus: bool,
+    /// Any input from audio (estimated bars).
+    pub any_audio: bool,
+    /// Fingerprint of inputs and options (SHA-256, hex).
+    pub fingerprint: String,
+    /// The statistics stage's summary of its null model, as `name = value` pairs (empty when
+    /// it did not run).
+    pub null_model: String,
+    /// A caution when the null model's shuffles gave few distinct pitch orders (empty
+    /// otherwise).
+    pub shuffle_caution: String,
+    /// Harmonic evidence, when computed.
+    pub harmony: Option<HarmonyContext>,
+    /// A recording placed on a score, when one work is each.
+    pub sync: Option<SyncContext>,
+}
+
+/// The scalar fields of a serialised summary as `name = value, ...` (numbers to 4 places).
+fn summary_text(value: &serde_json::Value) -> String {
+    match value {
+        serde_json::Value::Object(map) => map
+            .iter()
+            .filter_map(|(k, v)| {
+                let text = match v {
+                    serde_json::Value::Number(n) => n
+                        .as_i64()
+                        .map(|i| i.to_string())
+                        .or_else(|| n.as_u64().map(|u| u.to_string()))
+                        .unwrap_or_else(|| trim_number(n.as_f64().unwrap_or(0.0), 4)),
+                    serde_json::Value::String(s) => s.clone(),
+                    serde_json::Value::Bool(b) => b.to_string(),
+                    _ => return None,
+                };
+                Some(format!("{} = {text}", k.replace('_', " ")))
+            })
+            .collect::<Vec<_>>()
+            .join(", "),
+        _ => String::new(),
+    }
+}
+
+/// Builds the templates' context.
+pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
+    let r = ex.findings;
+    let ranges_a: Vec<[usize; 2]> = r.passages.iter().map(|f| f.passage.a.note_range).collect();
+    let ranges_b: Vec<[usize; 2]> = r.passages.iter().map(|f| f.passage.b.note_range).collect();
+    ExhibitContext {
+        tool: "collatio".into(),
+        version: env!("CARGO_PKG_VERSION").into(),
+        case_label: ex.options.case_label.clone().unwrap_or_default(),
+        date: ex.options.date.clone().unwrap_or_default(),
+        paper: ex.options.paper.name().into(),
+        common_key: ex.options.common_key.clone(),
+        a: work_context("A", &ex.label_a, ex.a, r.notes_a, r.unmatched_a, &ranges_a),
+        b: work_context("B", &ex.label_b, ex.b, r.notes_b, r.unmatched_b, &ranges_b),
+        similarity: trim_number(r.similarity, 2),
+        passages: r
+            .passages
+            .iter()
+            .zip(&ex.views)
+            .map(|(p, v)| passage_context(ex, p, v))
+            .collect(),
+        parameters: param_rows(&r.settings.align),
+        parameter_pairs: param_rows(&r.settings.align)
+            .chunks(2)
+            .map(|c| {
+                let get = |k: usize| {
+                    c.get(k).map_or((String::new(), String::new()), |r| {
+                        (r.flag.clone(), r.value.clone())
+                    })
+                };
+                let ((f1, v1), (f2, v2)) = (get(0), get(1));
+                [f1, v1, f2, v2]
+            })
+            .collect(),
+        any_significance: r.passages.iter().any(|p| p.significance.is_some()),
+        any_corpus: r.passages.iter().any(|p| p.commonness.is_some()),
+        any_audio: ex.a.bars.iter().chain(&ex.b.bars).any(|b| b.estimated),
+        fingerprint: ex.fingerprint(),
+        null_model: serde_json::to_value(&r.null_model)
+            .map(|v| summary_text(&v))
+            .unwrap_or_default(),
+        shuffle_caution: r
+            .null_model
+            .as_ref()
+            .map(shuffle_caution)
+            .unwrap_or_default(),
+        harmony: harmony_context(r.harmony.as_ref()),
+        sync: sync_context(r.synchronisation.as_ref()),
+    }
+}

@@ -1,0 +1,118 @@
+//! The exhibit: the PDF report, the JSON record written to a file, and the passage exports,
+//! as one library call.
+//!
+//! In: the [`Findings`] of a comparison, [`ExhibitOptions`] (paper, labels, case label, date,
+//! common key) and [`Outputs`] (which files to write). Out: the files, written atomically
+//! ([`crate::report::output`]), and the list of paths written. No output may replace an input
+//! file.
+//!
+//! - [`options`]: options, outputs and errors; [`dates`]: the date printed.
+//! - [`prepared`]: the exhibit prepared once (labels, notation of every passage, digest).
+//! - [`context`] with [`works`], [`passages`], [`params`] and [`evidence`]: the templates'
+//!   view, every figure as the text it is printed as.
+//!
+//! Determinism: identical inputs and options give byte-identical files. The date printed is
+//! the one given, else the one `SOURCE_DATE_EPOCH` names, else none: never the clock. The PDF's
+//! document identifier is derived from the inputs' SHA-256 hashes and the options.
+//!
+//! ```no_run
+//! use collatio::findings::CompareSettings;
+//! use collatio::report::exhibit::{write_exhibit, ExhibitOptions, Outputs};
+//! # fn demo(a: collatio::timeline::Piece, b: collatio::timeline::Piece) -> Result<(), Box<dyn std::error::Error>> {
+//! let findings = collatio::pipeline::compare_works(a, b, &CompareSettings::default(), None);
+//! let outputs = Outputs { pdf: Some("exhibit.pdf".into()), ..Outputs::default() };
+//! write_exhibit(&findings, &ExhibitOptions::default(), &outputs)?;
+//! # Ok(()) }
+//! ```
+
+pub mod context;
+pub mod dates;
+pub mod evidence;
+pub mod options;
+pub mod params;
+pub mod passages;
+pub mod prepared;
+pub mod works;
+
+pub use context::{context, ExhibitContext};
+pub use dates::resolve_date;
+pub use options::{default_label, ExhibitError, ExhibitOptions, Outputs};
+pub use prepared::Exhibit;
+
+use crate::findings::Findings;
+use crate::report::output::{check_outputs, write_atomic, OutputError};
+use std::path::{Path, PathBuf};
+
+/// What [`write_exhibit`] wrote.
+#[derive(Debug, Clone, Default)]
+pub struct Written {
+    /// Paths written, in order.
+    pub files: Vec<PathBuf>,
+    /// Pages of the PDF, when one was written.
+    pub pdf_pages: usize,
+}
+
+/// Writes the requested outputs. The JSON is the record `compare --format json` prints.
+pub fn write_exhibit(
+    findings: &Findings,
+    options: &ExhibitOptions,
+    outputs: &Outputs,
+) -> Result<Written, ExhibitError> {
+    let exhibit = Exhibit::new(findings, options)?;
+    let (a, b) = (&findings.a, &findings.b);
+    let inputs = [Path::new(&a.provenance.path), Path::new(&b.provenance.path)];
+    let export_files: Vec<(PathBuf, PathBuf)> = match &outputs.export_dir {
+        Some(dir) => findings
+            .passages
+            .iter()
+            .map(|f| {
+                let stem = crate::report::export::file_stem(f.passage.rank);
+                (
+                    dir.join(stem.clone() + ".musicxml"),
+                    dir.join(stem + ".mid"),
+                )
+            })
+            .collect(),
+        None => Vec::new(),
+    };
+    let mut all: Vec<PathBuf> = outputs.pdf.iter().chain(&outputs.json).cloned().collect();
+    for (x, m) in &export_files {
+        all.push(x.clone());
+        all.push(m.clone());
+    }
+    check_outputs(&inputs, &all)?;
+    let mut written = Written::default();
+    if let Some(path) = &outputs.json {
+        let record = crate::report::compare::record(findings);
+        let mut json = serde_json::to_string_pretty(&record)?;
+        json.push('\n');
+        write_atomic(path, json.as_bytes())?;
+        written.files.push(path.clone());
+    }
+    if let Some(dir) = &outputs.export_dir {
+        std::fs::create_dir_all(dir).map_err(|source| OutputError::Io {
+            path: dir.clone(),
+            source,
+        })?;
+        for (((xml_path, mid_path), view), p) in export_files
+            .iter()
+            .zip(&exhibit.views)
+            .zip(&findings.passages)
+        {
+            let p = &p.passage;
+            let xml = crate::report::export::musicxml(&exhibit, p, view);
+            write_atomic(xml_path, xml.as_bytes())?;
+            written.files.push(xml_path.clone());
+            let midi = crate::report::export::midi(&exhibit, p, view)?;
+            write_atomic(mid_path, &midi)?;
+            written.files.push(mid_path.clone());
+        }
+    }
+    if let Some(path) = &outputs.pdf {
+        let (bytes, pages) = crate::report::pdf::render(&exhibit)?;
+        write_atomic(path, &bytes)?;
+        written.files.push(path.clone());
+        written.pdf_pages = pages;
+    }
+    Ok(written)
+}

@@ -1,0 +1,103 @@
+//! An exhibit prepared once for every renderer: the findings, the labels of the two works,
+//! the common key and the notation of every passage, and the document digest.
+
+use super::options::{default_label, ExhibitError, ExhibitOptions};
+use crate::findings::Findings;
+use crate::report::notation::{self, PassageView};
+use crate::timeline::Piece;
+
+/// Everything the renderers need, computed once.
+#[derive(Debug, Clone)]
+pub struct Exhibit<'a> {
+    /// Everything the comparison found.
+    pub findings: &'a Findings,
+    /// Work A as compared.
+    pub a: &'a Piece,
+    /// Work B as compared.
+    pub b: &'a Piece,
+    /// Options.
+    pub options: &'a ExhibitOptions,
+    /// Label of A.
+    pub label_a: String,
+    /// Label of B.
+    pub label_b: String,
+    /// Tonic pitch class of the common key.
+    pub target_tonic: i32,
+    /// The notation of each passage, in rank order.
+    pub views: Vec<PassageView>,
+}
+
+impl<'a> Exhibit<'a> {
+    /// Prepares an exhibit.
+    pub fn new(
+        findings: &'a Findings,
+        options: &'a ExhibitOptions,
+    ) -> Result<Exhibit<'a>, ExhibitError> {
+        let (a, b) = (&findings.a, &findings.b);
+        let target_tonic = crate::theory::parse_tonic(&options.common_key)
+            .ok_or_else(|| ExhibitError::BadKey(options.common_key.clone()))?;
+        let label_a = options.label_a.clone().unwrap_or_else(|| default_label(a));
+        let label_b = options.label_b.clone().unwrap_or_else(|| default_label(b));
+        let views = findings
+            .passages
+            .iter()
+            .map(|f| {
+                let mut v =
+                    notation::passage_view(a, b, &f.passage, (&label_a, &label_b), target_tonic);
+                if options.piano_roll {
+                    v.a.unstable_pitch = true;
+                }
+                v
+            })
+            .collect();
+        Ok(Exhibit {
+            findings,
+            a,
+            b,
+            options,
+            label_a,
+            label_b,
+            target_tonic,
+            views,
+        })
+    }
+
+    /// A digest of everything the output depends on, lower-case hex (SHA-256).
+    pub fn fingerprint(&self) -> String {
+        use sha2::{Digest, Sha256};
+        let mut h = Sha256::new();
+        h.update(self.a.provenance.sha256.as_bytes());
+        h.update(self.b.provenance.sha256.as_bytes());
+        h.update(
+            serde_json::to_string(&self.findings.settings.align)
+                .unwrap_or_default()
+                .as_bytes(),
+        );
+        let o = self.options;
+        for part in [
+            o.paper.name(),
+            o.case_label.as_deref().unwrap_or(""),
+            &self.label_a,
+            &self.label_b,
+            o.date.as_deref().unwrap_or(""),
+            &o.common_key,
+            env!("CARGO_PKG_VERSION"),
+        ] {
+            h.update(part.as_bytes());
+            h.update([0u8]);
+        }
+        h.update(self.a.selection.reason.as_bytes());
+        h.update(self.b.selection.reason.as_bytes());
+        // The statistics, harmony and score-following settings shape the document as well.
+        let r = self.findings;
+        for settings in [
+            serde_json::to_string(&r.null_model),
+            serde_json::to_string(&r.harmony.as_ref().map(|x| &x.parameters)),
+            serde_json::to_string(&r.synchronisation.as_ref().map(|x| &x.parameters)),
+        ] {
+            h.update(settings.unwrap_or_default().as_bytes());
+            h.update([0u8]);
+        }
+        h.finalize().iter().map(|b| format!("{b:02x}")).collect()
+    }
+}

@@ -1,0 +1,84 @@
+//! Number and span formatting shared by every renderer, so that the text report, the exhibit
+//! and the exports print a figure the same way.
+
+/// Formats a number with at most `digits` decimals, trailing zeros trimmed: `1.50` → `1.5`,
+/// `2.0` → `2`.
+pub fn trim_number(value: f64, digits: usize) -> String {
+    let text = format!("{value:.digits$}");
+    if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
+}
+
+/// `bar 9` or `bars 9–16` (an en dash, as the exhibit prints spans).
+pub fn bars_text(first: &str, last: &str) -> String {
+    bar_span(first, last, '–')
+}
+
+/// `bar 9` or `bars 9<dash>16`.
+pub fn bar_span(first: &str, last: &str, dash: char) -> String {
+    if first == last {
+        format!("bar {first}")
+    } else {
+        format!("bars {first}{dash}{last}")
+    }
+}
+
+/// An E-value in a short form for tables: `3e-29`, `0.004`, `1.2`.
+pub fn format_e_value(e: f64) -> String {
+    if e >= 0.01 {
+        format!("{e:.2}")
+    } else {
+        format!("{e:.0e}")
+    }
+}
+
+/// Small values in plain scientific notation for prose: `0.0021`, `3.1×10^-7`.
+pub fn sci(x: f64) -> String {
+    if x == 0.0 {
+        "0".into()
+    } else if x.abs() >= 0.001 && x.abs() < 10_000.0 {
+        trim_number(x, 4)
+    } else {
+        let e = x.abs().log10().floor() as i32;
+        let m = x / 10f64.powi(e);
+        format!("{}×10^{e}", trim_number(m, 2))
+    }
+}
+
+/// A share in [0, 1] as a whole percentage: `0.935` → `94%`.
+pub fn percent(x: f64) -> String {
+    format!("{:.0}%", 100.0 * x)
+}
+
+/// A file size in words: `812 bytes`, `51.7 KB (51690 bytes)`, `12.3 MB (12345678 bytes)`.
+pub fn size_text(bytes: u64) -> String {
+    if bytes < 10_000 {
+        format!("{bytes} bytes")
+    } else if bytes < 10_000_000 {
+        format!(
+            "{} KB ({bytes} bytes)",
+            trim_number(bytes as f64 / 1000.0, 1)
+        )
+    } else {
+        format!("{} MB ({bytes} bytes)", trim_number(bytes as f64 / 1e6, 1))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers() {
+        assert_eq!(trim_number(1.50, 2), "1.5");
+        assert_eq!(trim_number(2.0, 2), "2");
+        assert_eq!(sci(0.00021), "2.1×10^-4");
+        assert_eq!(sci(0.5), "0.5");
+        assert_eq!(format_e_value(0.003), "3e-3");
+        assert_eq!(bars_text("9", "16"), "bars 9–16");
+        assert_eq!(bar_span("9", "9", '-'), "bar 9");
+    }
+}
