@@ -276,14 +276,7 @@ fn build(
         ))
         .into());
     }
-    if analysis.notes.len() as u64 > limits.max_notes {
-        return Err(Problem::Limit {
-            what: "number of notes",
-            value: analysis.notes.len() as u64,
-            limit: limits.max_notes,
-            flag: "--max-notes",
-        });
-    }
+    limits.check_notes(analysis.notes.len() as u64)?;
     let meter_given = options.meter.is_some();
     let (numerator, denominator) = options.meter.unwrap_or((4, 4));
     let (beats_per_bar, ticks_per_beat) = meter_layout(numerator, denominator);
@@ -359,14 +352,7 @@ fn build(
         }
         None => starts.push(0),
     }
-    if starts.len() as u64 > limits.max_bars {
-        return Err(Problem::Limit {
-            what: "number of bars",
-            value: starts.len() as u64,
-            limit: limits.max_bars,
-            flag: "--max-bars",
-        });
-    }
+    limits.check_bars(starts.len() as u64)?;
     let base = usize::from(!pickup);
     let bars: Vec<RawBar> = starts
         .iter()

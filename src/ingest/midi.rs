@@ -95,7 +95,7 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
                                 open.get_mut(&(channel, key)).and_then(VecDeque::pop_front)
                             {
                                 total_notes += 1;
-                                check_notes(total_notes, limits)?;
+                                limits.check_notes(total_notes)?;
                                 notes.entry(channel).or_default().push(midi_note(
                                     onset,
                                     tick - onset,
@@ -152,7 +152,7 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
             for (onset, velocity) in queue {
                 unclosed += 1;
                 total_notes += 1;
-                check_notes(total_notes, limits)?;
+                limits.check_notes(total_notes)?;
                 notes.entry(channel).or_default().push(midi_note(
                     onset,
                     tick - onset,
@@ -222,18 +222,6 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
         limits,
     )?;
     Ok(raw)
-}
-
-fn check_notes(count: u64, limits: &Limits) -> Result<(), Problem> {
-    if count > limits.max_notes {
-        return Err(Problem::Limit {
-            what: "number of notes",
-            value: count,
-            limit: limits.max_notes,
-            flag: "--max-notes",
-        });
-    }
-    Ok(())
 }
 
 fn midi_note(onset: i64, duration: i64, key: u8, velocity: u8) -> Note {
@@ -366,14 +354,7 @@ fn bar_grid(
             pickup: false,
             implicit: false,
         });
-        if bars.len() as u64 > limits.max_bars {
-            return Err(Problem::Limit {
-                what: "number of bars",
-                value: bars.len() as u64,
-                limit: limits.max_bars,
-                flag: "--max-bars",
-            });
-        }
+        limits.check_bars(bars.len() as u64)?;
         cursor += length;
         while next < signatures.len() && signatures[next].ticks <= cursor {
             current = (signatures[next].numerator, signatures[next].denominator);

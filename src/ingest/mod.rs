@@ -56,6 +56,67 @@ impl Default for Limits {
     }
 }
 
+impl Limits {
+    /// The one check of every limit: `value` against `limit`, with what was measured and the
+    /// flag that raises it named in the error.
+    fn check(
+        value: u64,
+        limit: u64,
+        what: &'static str,
+        flag: &'static str,
+    ) -> Result<(), Problem> {
+        if value > limit {
+            return Err(Problem::Limit {
+                what,
+                value,
+                limit,
+                flag,
+            });
+        }
+        Ok(())
+    }
+
+    /// Checks a file size in bytes against [`Limits::max_file_bytes`].
+    pub fn check_file_bytes(&self, bytes: u64) -> Result<(), Problem> {
+        Self::check(
+            bytes,
+            self.max_file_bytes,
+            "file size in bytes",
+            "--max-file-mb",
+        )
+    }
+
+    /// Checks a decompressed size in bytes against [`Limits::max_decompressed_bytes`].
+    pub fn check_decompressed_bytes(&self, bytes: u64) -> Result<(), Problem> {
+        Self::check(
+            bytes,
+            self.max_decompressed_bytes,
+            "decompressed size in bytes of an .mxl entry",
+            "--max-decompressed-mb",
+        )
+    }
+
+    /// Checks the entries of an `.mxl` container against [`Limits::max_archive_entries`].
+    pub fn check_archive_entries(&self, entries: u64) -> Result<(), Problem> {
+        Self::check(
+            entries,
+            self.max_archive_entries,
+            "number of entries in the .mxl container",
+            "--max-archive-entries",
+        )
+    }
+
+    /// Checks a note count against [`Limits::max_notes`].
+    pub fn check_notes(&self, notes: u64) -> Result<(), Problem> {
+        Self::check(notes, self.max_notes, "number of notes", "--max-notes")
+    }
+
+    /// Checks a bar count against [`Limits::max_bars`].
+    pub fn check_bars(&self, bars: u64) -> Result<(), Problem> {
+        Self::check(bars, self.max_bars, "number of bars", "--max-bars")
+    }
+}
+
 /// How to read a file.
 #[derive(Debug, Clone, Default)]
 pub struct ReadOptions {
@@ -75,7 +136,7 @@ pub fn read_file(path: &Path, options: &ReadOptions) -> Result<Piece, IngestErro
     if let Some(format) = sniff_audio(path) {
         return read_audio_file(path, format, options).map_err(|p| p.at(path));
     }
-    let bytes = read_limited(path, options.limits.max_file_bytes).map_err(|p| p.at(path))?;
+    let bytes = read_limited(path, &options.limits).map_err(|p| p.at(path))?;
     read_bytes(path, &bytes, options)
 }
 
@@ -89,7 +150,6 @@ fn sniff_audio(path: &Path) -> Option<Format> {
 
 /// Hashes and size-checks an audio file by streaming it, then decodes it from disk.
 fn read_audio_file(path: &Path, format: Format, options: &ReadOptions) -> Result<Piece, Problem> {
-    let limit = options.limits.max_file_bytes;
     let mut file = std::fs::File::open(path)?;
     let mut hasher = Sha256::new();
     let mut buffer = vec![0u8; 1 << 16];
@@ -100,14 +160,7 @@ fn read_audio_file(path: &Path, format: Format, options: &ReadOptions) -> Result
             break;
         }
         total += n as u64;
-        if total > limit {
-            return Err(Problem::Limit {
-                what: "file size in bytes",
-                value: total,
-                limit,
-                flag: "--max-file-mb",
-            });
-        }
+        options.limits.check_file_bytes(total)?;
         hasher.update(&buffer[..n]);
     }
     let raw = audio::read_file(path, format, &options.audio, &options.limits)?;
@@ -152,14 +205,7 @@ pub fn read_bytes(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Pi
 
 fn read_inner(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Piece, Problem> {
     let limits = &options.limits;
-    if bytes.len() as u64 > limits.max_file_bytes {
-        return Err(Problem::Limit {
-            what: "file size in bytes",
-            value: bytes.len() as u64,
-            limit: limits.max_file_bytes,
-            flag: "--max-file-mb",
-        });
-    }
+    limits.check_file_bytes(bytes.len() as u64)?;
     let format = detect::detect(bytes)?;
     let raw = match format {
         Format::Midi => midi::read(bytes, limits)?,
@@ -188,28 +234,15 @@ fn read_inner(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Piece,
     select::select_melody(piece, &options.choice)
 }
 
-/// Reads at most `limit` bytes, failing with a limit error beyond it.
-fn read_limited(path: &Path, limit: u64) -> Result<Vec<u8>, Problem> {
+/// Reads at most the file-size limit's bytes, failing with a limit error beyond it.
+fn read_limited(path: &Path, limits: &Limits) -> Result<Vec<u8>, Problem> {
+    let limit = limits.max_file_bytes;
     let file = std::fs::File::open(path)?;
     let declared = file.metadata()?.len();
-    if declared > limit {
-        return Err(Problem::Limit {
-            what: "file size in bytes",
-            value: declared,
-            limit,
-            flag: "--max-file-mb",
-        });
-    }
+    limits.check_file_bytes(declared)?;
     let mut bytes = Vec::with_capacity(declared as usize);
     file.take(limit + 1).read_to_end(&mut bytes)?;
-    if bytes.len() as u64 > limit {
-        return Err(Problem::Limit {
-            what: "file size in bytes",
-            value: bytes.len() as u64,
-            limit,
-            flag: "--max-file-mb",
-        });
-    }
+    limits.check_file_bytes(bytes.len() as u64)?;
     Ok(bytes)
 }
 

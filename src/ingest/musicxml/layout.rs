@@ -90,14 +90,7 @@ pub(super) fn lay_out(
     } else {
         (0..count).collect()
     };
-    if order.len() as u64 > limits.max_bars {
-        return Err(Problem::Limit {
-            what: "number of bars",
-            value: order.len() as u64,
-            limit: limits.max_bars,
-            flag: "--max-bars",
-        });
-    }
+    limits.check_bars(order.len() as u64)?;
 
     // Bars and their starts.
     let mut starts = Vec::with_capacity(order.len());

@@ -108,14 +108,7 @@ fn read_text(text: &str, limits: &Limits, unfold: bool) -> Result<RawPiece, Prob
             let m = measure::read_measure(*holder, *content, ordinal, &mut state)
                 .map_err(|p| in_part(p, &source.id))?;
             total_notes += m.notes.len() as u64;
-            if total_notes > limits.max_notes {
-                return Err(Problem::Limit {
-                    what: "number of notes",
-                    value: total_notes,
-                    limit: limits.max_notes,
-                    flag: "--max-notes",
-                });
-            }
+            limits.check_notes(total_notes)?;
             measures.push(m);
         }
         if !state.saw_divisions && measures.iter().any(|m| !m.notes.is_empty()) {

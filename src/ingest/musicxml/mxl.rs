@@ -10,14 +10,7 @@ pub(crate) fn root_document(bytes: &[u8], limits: &Limits) -> Result<(String, Ve
     let mut archive = zip::ZipArchive::new(Cursor::new(bytes))
         .map_err(|e| Problem::Mxl(format!("not a readable zip container: {e}")))?;
     let entries = archive.len() as u64;
-    if entries > limits.max_archive_entries {
-        return Err(Problem::Limit {
-            what: "number of entries in the .mxl container",
-            value: entries,
-            limit: limits.max_archive_entries,
-            flag: "--max-archive-entries",
-        });
-    }
+    limits.check_archive_entries(entries)?;
     let root = match read_entry(&mut archive, "META-INF/container.xml", limits)? {
         Some(container) => root_from_container(&container)?,
         None => guess_root(&archive)?,
@@ -48,14 +41,7 @@ fn read_entry(
         .take(limit + 1)
         .read_to_end(&mut data)
         .map_err(|e| Problem::Mxl(format!("entry '{name}' cannot be decompressed: {e}")))?;
-    if data.len() as u64 > limit {
-        return Err(Problem::Limit {
-            what: "decompressed size in bytes of an .mxl entry",
-            value: data.len() as u64,
-            limit,
-            flag: "--max-decompressed-mb",
-        });
-    }
+    limits.check_decompressed_bytes(data.len() as u64)?;
     Ok(Some(data))
 }
 
