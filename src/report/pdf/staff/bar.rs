@@ -4,57 +4,11 @@
 
 use super::beams::{beam_groups, draw_beam_group, draw_stems, stem_direction, Head};
 use super::glyphs::{notehead, rest_dots, rest_glyph, tie, Staff};
-use super::spacing::{BarLayout, Room};
+use super::spacing::PlacedBar;
 use super::{diatonic, mark_ink, SP};
-use crate::report::notation::{Event, Mark, StaffView, ViewBar, ViewNote};
+use crate::report::notation::{Event, Mark, ViewNote};
 use crate::report::pdf::layout::{palette, Page, Rgbf};
 use crate::report::pdf::text::Face;
-
-/// One bar as placed on its system.
-pub(super) struct PlacedBar<'a> {
-    /// The staff the bar belongs to.
-    pub view: &'a StaffView,
-    /// The bar.
-    pub bar: &'a ViewBar,
-    /// Its natural layout.
-    pub lay: &'a BarLayout,
-    /// Left edge, mm.
-    pub bx: f32,
-    /// Stretch applied to the natural layout.
-    pub scale: f32,
-    /// The staff's room above and below.
-    pub room: Room,
-    /// The x of each event, mm.
-    pub xs: Vec<f32>,
-}
-
-impl<'a> PlacedBar<'a> {
-    /// Places `bar`, laid out as `lay`, at `bx`, stretched by `scale`.
-    pub fn new(
-        view: &'a StaffView,
-        bar: &'a ViewBar,
-        lay: &'a BarLayout,
-        bx: f32,
-        scale: f32,
-        room: Room,
-    ) -> PlacedBar<'a> {
-        let xs = lay.xs.iter().map(|x| bx + x * scale).collect();
-        PlacedBar {
-            view,
-            bar,
-            lay,
-            bx,
-            scale,
-            room,
-            xs,
-        }
-    }
-
-    /// Width as drawn, mm.
-    pub fn width(&self) -> f32 {
-        self.lay.width * self.scale
-    }
-}
 
 /// Baselines of the text rows under a staff.
 struct TextRows {

@@ -2,8 +2,8 @@
 //! under a sloped beam clear of every head (with secondary beams and stubs for sixteenths and
 //! shorter); other notes get a plain stem with flags. Triplets are numbered at the stem or beam.
 
-use super::bar::PlacedBar;
 use super::glyphs::{flag, Staff};
+use super::spacing::PlacedBar;
 use super::{bottom_line, diatonic, mark_ink, SP};
 use crate::report::notation::{Clef, Mark, StaffView, ViewBar};
 use crate::report::pdf::layout::{palette, Page, Rgbf};

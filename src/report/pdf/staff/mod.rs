@@ -26,9 +26,11 @@ use super::layout::{palette, Flow, Page, Rgbf};
 use super::text::Face;
 use crate::report::notation::{Clef, Mark, PassageView, StaffView, ViewBar};
 use crate::theory::Step;
-use bar::{draw_bar, PlacedBar};
+use bar::draw_bar;
 use glyphs::{key_positions, time_signature, Staff};
-use spacing::{layout_bars, prefix_width, BarLayout, Room, SystemPlan, CHORD_ROW, TEXT_ROWS};
+use spacing::{
+    layout_bars, prefix_width, BarLayout, PlacedBar, Room, SystemPlan, CHORD_ROW, TEXT_ROWS,
+};
 
 /// Staff space, mm.
 const SP: f32 = 1.8;

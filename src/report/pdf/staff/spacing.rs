@@ -226,3 +226,49 @@ mod tests {
         assert_eq!((bb[6], bb[2], bb[5]), (-1, -1, 0));
     }
 }
+
+/// One bar as placed on its system.
+pub(super) struct PlacedBar<'a> {
+    /// The staff the bar belongs to.
+    pub view: &'a StaffView,
+    /// The bar.
+    pub bar: &'a ViewBar,
+    /// Its natural layout.
+    pub lay: &'a BarLayout,
+    /// Left edge, mm.
+    pub bx: f32,
+    /// Stretch applied to the natural layout.
+    pub scale: f32,
+    /// The staff's room above and below.
+    pub room: Room,
+    /// The x of each event, mm.
+    pub xs: Vec<f32>,
+}
+
+impl<'a> PlacedBar<'a> {
+    /// Places `bar`, laid out as `lay`, at `bx`, stretched by `scale`.
+    pub fn new(
+        view: &'a StaffView,
+        bar: &'a ViewBar,
+        lay: &'a BarLayout,
+        bx: f32,
+        scale: f32,
+        room: Room,
+    ) -> PlacedBar<'a> {
+        let xs = lay.xs.iter().map(|x| bx + x * scale).collect();
+        PlacedBar {
+            view,
+            bar,
+            lay,
+            bx,
+            scale,
+            room,
+            xs,
+        }
+    }
+
+    /// Width as drawn, mm.
+    pub fn width(&self) -> f32 {
+        self.lay.width * self.scale
+    }
+}

@@ -1,0 +1,56 @@
+//! Options of `corpus build` and `search`.
+
+use super::analysis::AlignmentArgs;
+use super::input::{LimitArgs, SelectionSpec};
+use super::output::OutputFormat;
+use clap::{Args, Subcommand};
+use std::path::PathBuf;
+
+/// Working with a corpus index.
+#[derive(Debug, Subcommand)]
+pub enum CorpusCommand {
+    /// Read every MIDI, MusicXML and audio file under a folder and write an index.
+    #[command(after_long_help = "Examples:
+  collatio corpus build demo/corpus -o target/demo/corpus.idx
+  collatio search new-song.musicxml --corpus target/demo/corpus.idx")]
+    Build(BuildArgs),
+}
+
+/// `corpus build`.
+#[derive(Debug, Args)]
+pub struct BuildArgs {
+    /// Folder to read (recursively; hidden files and folders are skipped).
+    pub dir: PathBuf,
+    /// Index file to write (atomically; never over an input).
+    #[arg(short, long, value_name = "FILE")]
+    pub output: PathBuf,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+}
+
+/// `search`.
+#[derive(Debug, Args)]
+pub struct SearchArgs {
+    /// The melody to look for: MusicXML, .mxl, MIDI or audio.
+    pub query: PathBuf,
+    /// Corpus index written by `collatio corpus build`.
+    #[arg(long, value_name = "FILE")]
+    pub corpus: PathBuf,
+    /// Melody of the query, e.g. part=P1,bars=9-16.
+    #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
+    pub select: Option<SelectionSpec>,
+    /// Best matches listed.
+    #[arg(long, default_value_t = 10, help_heading = "SEARCH")]
+    pub top: usize,
+    /// Candidates retrieved by shared figures and then aligned in full (raise it to look
+    /// deeper in corpora full of near-duplicates; each costs one full alignment).
+    #[arg(long, default_value_t = 20, help_heading = "SEARCH")]
+    pub candidates: usize,
+    #[command(flatten)]
+    pub alignment: AlignmentArgs,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
+    pub format: OutputFormat,
+}
