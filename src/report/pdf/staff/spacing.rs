@@ -214,19 +214,6 @@ impl Room {
     }
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn key_signatures() {
-        // G major: F sharp; B-flat major: B and E flat.
-        assert_eq!(key_alters(1)[3], 1);
-        let bb = key_alters(-2);
-        assert_eq!((bb[6], bb[2], bb[5]), (-1, -1, 0));
-    }
-}
-
 /// One bar as placed on its system.
 pub(super) struct PlacedBar<'a> {
     /// The staff the bar belongs to.
@@ -270,5 +257,18 @@ impl<'a> PlacedBar<'a> {
     /// Width as drawn, mm.
     pub fn width(&self) -> f32 {
         self.lay.width * self.scale
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn key_signatures() {
+        // G major: F sharp; B-flat major: B and E flat.
+        assert_eq!(key_alters(1)[3], 1);
+        let bb = key_alters(-2);
+        assert_eq!((bb[6], bb[2], bb[5]), (-1, -1, 0));
     }
 }
