@@ -359,14 +359,3 @@ impl InspectArgs {
         })
     }
 }
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use clap::CommandFactory;
-
-    #[test]
-    fn command_definition_is_consistent() {
-        Cli::command().debug_assert();
-    }
-}

@@ -157,3 +157,14 @@ impl CompareArgs {
         Ok((make(&self.select_a), make(&self.select_b)))
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn command_definition_is_consistent() {
+        Cli::command().debug_assert();
+    }
+}
