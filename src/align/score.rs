@@ -24,13 +24,13 @@ use crate::features::{SeqNote, Sequence};
 const RHYTHM_SAME: f64 = 0.1;
 /// Log-ratio tolerance for "similar rhythm": within a factor of two.
 const RHYTHM_NEAR: f64 = 1.0;
-/// Code for "no previous note" in the interval and rhythm tables.
+/// Both tolerances are inclusive; this slack keeps them so against rounding in the logarithms
+/// (log2 3 − log2 1.5 comes out a hair under or over 1).
+const RHYTHM_SLACK: f64 = 1e-9;
+/// Code for "no previous note" in the interval table.
 const NONE_CODE: usize = 0;
 /// Intervals beyond two octaves share one code.
 const MAX_INTERVAL: i32 = 24;
-/// Rhythm codes: log2 ratio in steps of 1/20, clamped to ±4 (a factor of 16).
-const RHYTHM_STEPS_PER_OCTAVE: f64 = 20.0;
-const RHYTHM_CLAMP: f64 = 4.0;
 
 /// Precomputed per-note codes and lookup tables for one pair of sequences.
 #[derive(Debug, Clone)]
@@ -42,9 +42,10 @@ pub(crate) struct Scorer {
     /// interval term by (code_a, code_b), row-major
     interval: Vec<i32>,
     interval_codes: usize,
-    /// rhythm term by (code_a, code_b)
-    rhythm: Vec<i32>,
-    rhythm_codes: usize,
+    /// rhythm terms: same, similar, other
+    rhythm_match: i32,
+    rhythm_near: i32,
+    rhythm_mismatch: i32,
     metric_match: i32,
     fragment_penalty: i32,
     /// Longest fragmentation considered (2 or 3).
@@ -56,7 +57,6 @@ pub(crate) struct Scorer {
 pub(crate) struct Coded {
     pub pc: Vec<u8>,
     pub interval: Vec<u16>,
-    pub rhythm: Vec<u16>,
     pub metric: Vec<u8>,
     /// Number of consecutive notes of equal pitch ending at each note (1 = no repeat).
     pub run: Vec<u8>,
@@ -72,23 +72,12 @@ fn interval_code(interval: Option<i32>) -> u16 {
     }
 }
 
-fn rhythm_code(log_ratio: Option<f64>) -> u16 {
-    match log_ratio {
-        None => NONE_CODE as u16,
-        Some(r) => {
-            let clamped = r.clamp(-RHYTHM_CLAMP, RHYTHM_CLAMP);
-            ((clamped + RHYTHM_CLAMP) * RHYTHM_STEPS_PER_OCTAVE).round() as u16 + 1
-        }
-    }
-}
-
 impl Coded {
     fn new(seq: &Sequence) -> Coded {
         let n = seq.notes.len();
         let mut out = Coded {
             pc: Vec::with_capacity(n),
             interval: Vec::with_capacity(n),
-            rhythm: Vec::with_capacity(n),
             metric: Vec::with_capacity(n),
             run: Vec::with_capacity(n),
             ioi_prefix: Vec::with_capacity(n + 1),
@@ -100,7 +89,6 @@ impl Coded {
         for note in &seq.notes {
             out.pc.push(note.pitch_class);
             out.interval.push(interval_code(note.interval));
-            out.rhythm.push(rhythm_code(note.log_ioi_ratio));
             out.metric.push(note.metric as u8);
             run = match previous {
                 Some(p) if p.pitch == note.pitch => run.saturating_add(1),
@@ -128,27 +116,17 @@ impl Coded {
     }
 }
 
-fn rhythm_term(params: &AlignParams, a: Option<f64>, b: Option<f64>) -> i32 {
-    match (a, b) {
-        (Some(x), Some(y)) => {
-            let d = (x - y).abs();
-            if d <= RHYTHM_SAME {
-                params.rhythm_match
-            } else if d <= RHYTHM_NEAR {
-                params.rhythm_near
-            } else {
-                params.rhythm_mismatch
-            }
-        }
-        _ => 0,
-    }
+/// Whether two log ratios differ by at most `tolerance`.
+#[inline(always)]
+fn within(x: f64, y: f64, tolerance: f64) -> bool {
+    (x - y).abs() <= tolerance + RHYTHM_SLACK
 }
 
 /// Whether a group of repeated notes fills the time of the single note it stands for: equal
 /// inter-onset ratios to the preceding note, or no preceding note to compare with.
 fn durations_agree(a: Option<f64>, b: Option<f64>) -> bool {
     match (a, b) {
-        (Some(x), Some(y)) => (x - y).abs() <= RHYTHM_SAME,
+        (Some(x), Some(y)) => within(x, y, RHYTHM_SAME),
         _ => true,
     }
 }
@@ -180,25 +158,15 @@ impl Scorer {
                     interval_term(params, decode_interval(ca), decode_interval(cb));
             }
         }
-        let rhythm_codes = (2.0 * RHYTHM_CLAMP * RHYTHM_STEPS_PER_OCTAVE) as usize + 2;
-        let decode_rhythm = |c: usize| {
-            (c != NONE_CODE).then(|| (c - 1) as f64 / RHYTHM_STEPS_PER_OCTAVE - RHYTHM_CLAMP)
-        };
-        let mut rhythm = vec![0; rhythm_codes * rhythm_codes];
-        for ca in 0..rhythm_codes {
-            for cb in 0..rhythm_codes {
-                rhythm[ca * rhythm_codes + cb] =
-                    rhythm_term(params, decode_rhythm(ca), decode_rhythm(cb));
-            }
-        }
         Scorer {
             a: Coded::new(a),
             b: Coded::new(b),
             pitch,
             interval,
             interval_codes,
-            rhythm,
-            rhythm_codes,
+            rhythm_match: params.rhythm_match,
+            rhythm_near: params.rhythm_near,
+            rhythm_mismatch: params.rhythm_mismatch,
             metric_match: params.metric_match,
             fragment_penalty: params.fragment_penalty,
             max_fragments: params.max_fragments.clamp(1, 3),
@@ -211,7 +179,7 @@ impl Scorer {
         let a = &self.a;
         let b = &self.b;
         self.interval[a.interval[i] as usize * self.interval_codes + b.interval[j] as usize]
-            + self.rhythm[a.rhythm[i] as usize * self.rhythm_codes + b.rhythm[j] as usize]
+            + self.rhythm_of(a.log_ratio[i], b.log_ratio[j])
             + if a.metric[i] == b.metric[j] {
                 self.metric_match
             } else {
@@ -238,9 +206,15 @@ impl Scorer {
         self.pitch(i, j, t) + self.context(i, j)
     }
 
+    /// Rhythm term of two log2 inter-onset ratios, compared as they are (0 without both).
+    #[inline(always)]
     fn rhythm_of(&self, x: Option<f64>, y: Option<f64>) -> i32 {
-        let code = |v: Option<f64>| rhythm_code(v) as usize;
-        self.rhythm[code(x) * self.rhythm_codes + code(y)]
+        match (x, y) {
+            (Some(x), Some(y)) if within(x, y, RHYTHM_SAME) => self.rhythm_match,
+            (Some(x), Some(y)) if within(x, y, RHYTHM_NEAR) => self.rhythm_near,
+            (Some(_), Some(_)) => self.rhythm_mismatch,
+            _ => 0,
+        }
     }
 
     /// One note a_i against the `k` notes b_{j−k+1..=j} of one pitch (fragmentation), or
