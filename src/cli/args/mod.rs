@@ -30,8 +30,11 @@ Exit codes:
     name = "collatio",
     version,
     about = "Compare pieces of music for shared melodic material and document the evidence",
-    long_about = "collatio reads MusicXML scores and MIDI files into one note-and-bar timeline \
-                  so that melodies can be compared whatever their key, tempo or notation.",
+    long_about = "collatio reads MusicXML scores, MIDI files and audio recordings (WAV, FLAC, \
+                  MP3, Ogg Vorbis, AAC/M4A, AIFF) into one note-and-bar timeline so that \
+                  melodies can be compared whatever their key, tempo or notation, and writes \
+                  the evidence up as a reproducible exhibit for a qualified expert. Similarity \
+                  is not proof of copying; the findings defer to qualified legal counsel.",
     after_long_help = EXIT_CODES
 )]
 pub struct Cli {
@@ -96,9 +99,9 @@ Exit codes:
 
 #[derive(Debug, Args)]
 pub struct CompareArgs {
-    /// The first work (A): MusicXML, .mxl or MIDI.
+    /// The first work (A): MusicXML, .mxl, MIDI or an audio recording.
     pub a: PathBuf,
-    /// The second work (B), compared against A.
+    /// The second work (B), compared against A (any of the same formats).
     pub b: PathBuf,
 
     /// Melody of A, e.g. part=P1,voice=1 or track=2,channel=1,bars=9-24.
