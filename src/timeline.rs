@@ -429,6 +429,20 @@ pub struct Selection {
     pub reason: String,
 }
 
+impl Selection {
+    /// A whole part, unrestricted and without chord reduction.
+    pub fn whole_part(part: usize, reason: String) -> Selection {
+        Selection {
+            part,
+            staff: None,
+            voice: None,
+            bars: None,
+            skyline: false,
+            reason,
+        }
+    }
+}
+
 /// A piece of music in the common timeline.
 #[derive(Debug, Clone, Serialize)]
 pub struct Piece {

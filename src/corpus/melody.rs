@@ -6,7 +6,7 @@ use crate::timeline::{
     Bar, Format, KeySignature, Note, Part, Piece, Provenance, Selection, TempoMap,
     DEFAULT_MICROS_PER_QUARTER,
 };
-use crate::units::{Beats, MidiPitch, Seconds};
+use crate::units::{Beats, Seconds};
 use serde::{Deserialize, Serialize};
 
 /// Ticks per quarter note of rebuilt pieces.
@@ -118,22 +118,13 @@ impl MelodyEntry {
             .notes
             .iter()
             .map(|n| Note {
-                onset_ticks: ticks(n.onset),
-                duration_ticks: ticks(n.duration),
                 onset: Beats(f64::from(n.onset)),
                 duration: Beats(f64::from(n.duration)),
                 onset_seconds: Seconds(f64::from(n.onset_seconds)),
                 duration_seconds: Seconds(f64::from(n.duration_seconds)),
-                pitch: MidiPitch(f64::from(n.pitch)),
-                spelling: None,
                 bar: n.bar as usize,
                 offset_in_bar: Beats(f64::from(n.offset_in_bar)),
-                part: 0,
-                voice: None,
-                staff: 1,
-                lyric: None,
-                velocity: None,
-                confidence: 1.0,
+                ..Note::at_ticks(ticks(n.onset), ticks(n.duration), f64::from(n.pitch))
             })
             .collect();
         let bars = self
@@ -195,14 +186,7 @@ impl MelodyEntry {
             ornaments: Vec::new(),
             repeats_unfolded: false,
             melody,
-            selection: Selection {
-                part: 0,
-                staff: None,
-                voice: None,
-                bars: None,
-                skyline: false,
-                reason: format!("melody {} of the corpus", self.part),
-            },
+            selection: Selection::whole_part(0, format!("melody {} of the corpus", self.part)),
             warnings: Vec::new(),
             chroma: None,
             unsure_spans: Vec::new(),

@@ -401,12 +401,7 @@ fn unwrap_rmid(bytes: &[u8]) -> Result<&[u8], Problem> {
     let mut pos = 12usize;
     while pos + 8 <= bytes.len() {
         let id = &bytes[pos..pos + 4];
-        let size = u32::from_le_bytes([
-            bytes[pos + 4],
-            bytes[pos + 5],
-            bytes[pos + 6],
-            bytes[pos + 7],
-        ]) as usize;
+        let size = u32::from_le_bytes(four_bytes(bytes, pos + 4)) as usize;
         let start = pos + 8;
         if id == b"data" {
             let end = start.saturating_add(size).min(bytes.len());
@@ -419,6 +414,15 @@ fn unwrap_rmid(bytes: &[u8]) -> Result<&[u8], Problem> {
     ))
 }
 
+/// The four bytes at `pos` (the caller has checked that they are there).
+fn four_bytes(bytes: &[u8], pos: usize) -> [u8; 4] {
+    let mut out = [0u8; 4];
+    if let Some(b) = bytes.get(pos..pos + 4) {
+        out.copy_from_slice(b);
+    }
+    out
+}
+
 /// Checks the chunk lengths that the file declares against its size (SMF 1.0: each chunk is a
 /// 4-byte type, a 32-bit big-endian length, then that many bytes). The decoder reads what is
 /// there; these warnings say what was missing.
@@ -428,12 +432,7 @@ fn chunk_warnings(bytes: &[u8]) -> Vec<String> {
     let mut track = 0usize;
     while pos + 8 <= bytes.len() {
         let kind = &bytes[pos..pos + 4];
-        let declared = u32::from_be_bytes([
-            bytes[pos + 4],
-            bytes[pos + 5],
-            bytes[pos + 6],
-            bytes[pos + 7],
-        ]);
+        let declared = u32::from_be_bytes(four_bytes(bytes, pos + 4));
         let remaining = bytes.len() - pos - 8;
         if kind == b"MTrk" {
             track += 1;

@@ -119,6 +119,20 @@ pub struct Event {
     pub tie_stop: bool,
 }
 
+impl Event {
+    /// A rest of `ticks` from `start` (ticks from the bar start), written as `value`.
+    fn rest(start: i64, ticks: i64, value: NoteValue) -> Event {
+        Event {
+            start,
+            ticks,
+            value,
+            note: None,
+            tie_start: false,
+            tie_stop: false,
+        }
+    }
+}
+
 /// A note of the melody as the view shows it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ViewNote {
@@ -599,14 +613,7 @@ fn staff_view(
             }
             if s > cursor {
                 for (rs, rt, v) in split_values(cursor - start, s - cursor, res, time) {
-                    events.push(Event {
-                        start: rs,
-                        ticks: rt,
-                        value: v,
-                        note: None,
-                        tie_start: false,
-                        tie_stop: false,
-                    });
+                    events.push(Event::rest(rs, rt, v));
                 }
             }
             let pieces = split_values(s - start, e - s, res, time);
@@ -626,28 +633,15 @@ fn staff_view(
         if cursor < end {
             if events.is_empty() {
                 // A bar of rest: one whole-bar rest.
-                events.push(Event {
-                    start: 0,
-                    ticks: end - start,
-                    value: NoteValue {
-                        log: 0,
-                        dots: 0,
-                        triplet: false,
-                    },
-                    note: None,
-                    tie_start: false,
-                    tie_stop: false,
-                });
+                let whole = NoteValue {
+                    log: 0,
+                    dots: 0,
+                    triplet: false,
+                };
+                events.push(Event::rest(0, end - start, whole));
             } else {
                 for (rs, rt, v) in split_values(cursor - start, end - cursor, res, time) {
-                    events.push(Event {
-                        start: rs,
-                        ticks: rt,
-                        value: v,
-                        note: None,
-                        tie_start: false,
-                        tie_stop: false,
-                    });
+                    events.push(Event::rest(rs, rt, v));
                 }
             }
         }
