@@ -43,19 +43,19 @@ pub struct Finding {
     /// covers the same stretch of both works.
     pub evidence: Vec<Evidence>,
     /// The note-level differences within the passage.
-    #[serde(skip)]
     pub differences: Vec<Difference>,
 }
 
 impl Finding {
-    /// A passage found by the melody alone, with nothing else known about it yet.
-    pub fn melodic(passage: Passage) -> Finding {
+    /// A passage found by the melody alone, with its differences and nothing else known
+    /// about it yet.
+    pub fn melodic(passage: Passage, differences: Vec<Difference>) -> Finding {
         Finding {
             passage,
             significance: None,
             commonness: None,
             evidence: vec![Evidence::Melody],
-            differences: Vec::new(),
+            differences,
         }
     }
 }

@@ -169,12 +169,20 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
         .par_iter()
         .filter_map(|&(m, _)| {
             let entry = corpus.index.melodies.get(m as usize)?;
-            let result = compare(&query, &entry.to_piece(), &settings.align);
+            let piece = entry.to_piece();
+            let result = compare(&query, &piece, &settings.align);
             (!result.passages.is_empty()).then(|| Hit {
                 path: entry.path.clone(),
                 title: entry.title.clone(),
                 similarity: result.similarity,
-                passages: result.passages.into_iter().map(Finding::melodic).collect(),
+                passages: result
+                    .passages
+                    .into_iter()
+                    .map(|p| {
+                        let found = differences(&query, &piece, &p);
+                        Finding::melodic(p, found)
+                    })
+                    .collect(),
             })
         })
         .collect();
