@@ -7,7 +7,8 @@ scripts/requirements.txt): "Ryan's Mammoth Collection" (ryansMammoth, 1883) and 
 "Music of Ireland" (oneills1850, 1903). The first tunes of each (sorted by file name) that
 music21 reads as one melodic line in a single meter are taken. Each melody: its source, title,
 meter, and events (MIDI pitch or null for a rest, length in twelfths of a quarter note), with a
-leading rest that puts a pickup at the end of a full bar.
+leading rest that puts a pickup at the end of a full bar (the convention shared through
+scripts/melody_events.py).
 
 Run: .venv/bin/python scripts/make_calibration_melodies.py [--per-collection 150]
 """
@@ -16,63 +17,14 @@ import argparse
 import json
 import pathlib
 import sys
-from fractions import Fraction
 
 import music21
-from music21 import converter, corpus, meter, note, chord
+from music21 import converter, corpus
+
+from melody_events import UNIT, first_score, melody_of
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 OUT = ROOT / "tests" / "fixtures" / "calibration" / "melodies.json"
-UNIT = 12  # divisions per quarter note
-
-
-def melody_of(score):
-    part = score.parts[0] if score.parts else score
-    flat = part.flatten()
-    sigs = list(flat.getElementsByClass(meter.TimeSignature))
-    if len(sigs) != 1 and len({(s.numerator, s.denominator) for s in sigs}) != 1:
-        return None
-    ts = sigs[0] if sigs else meter.TimeSignature("4/4")
-    stripped = part.stripTies(inPlace=False).flatten()
-    events = []
-    cursor = Fraction(0)
-    for el in stripped.notesAndRests:
-        if el.duration.isGrace:
-            continue
-        offset = Fraction(el.getOffsetInHierarchy(stripped)).limit_denominator(96)
-        length = Fraction(el.duration.quarterLength).limit_denominator(96)
-        if offset < cursor:  # overlapping voices: not a single line
-            return None
-        if offset > cursor:
-            events.append([None, offset - cursor])
-        if isinstance(el, chord.Chord):
-            pitch = max(p.midi for p in el.pitches)
-        elif isinstance(el, note.Note):
-            pitch = el.pitch.midi
-        else:
-            pitch = None
-        events.append([pitch, length])
-        cursor = offset + length
-    pitched = [e for e in events if e[0] is not None]
-    if len(pitched) < 24:
-        return None
-    bar = Fraction(ts.barDuration.quarterLength)
-    # A pickup: the first measure is shorter than a bar.
-    measures = list(part.getElementsByClass("Measure"))
-    lead = Fraction(0)
-    if measures:
-        first = Fraction(measures[0].duration.quarterLength).limit_denominator(96)
-        if 0 < first < bar:
-            lead = bar - first
-    if lead:
-        events.insert(0, [None, lead])
-    out = []
-    for pitch, length in events:
-        units = length * UNIT
-        if units.denominator != 1 or units <= 0:
-            return None
-        out.append([pitch, int(units)])
-    return {"meter": [ts.numerator, ts.denominator], "events": out}
 
 
 def main(argv):
@@ -90,8 +42,7 @@ def main(argv):
                 parsed = converter.parse(path)
             except Exception:  # noqa: BLE001 - skip what music21 cannot read
                 continue
-            scores = list(parsed.scores) if hasattr(parsed, "scores") else [parsed]
-            score = scores[0] if scores else parsed
+            score = first_score(parsed)
             m = melody_of(score)
             if m is None:
                 continue
