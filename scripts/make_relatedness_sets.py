@@ -19,9 +19,12 @@ Duplicate encodings are dropped first (dedupe(): O'Neill tunes filed twice, iden
 several versions of one Bach movement).
 
 The families are NOT found automatically here: they are read from the curated list
-scripts/relatedness_families.json. The automatic matching that proposed the candidates is kept
-for re-checking: --candidates dance|chorales [--bars N] prints the candidate groups with their
-incipits as pitch names and as scale degrees relative to the last note.
+scripts/relatedness_families.json (first-pass families, plus the second pass's accepted
+additions and new families: families_of()). The automatic matching that proposed the
+first-pass candidates is kept for re-checking: --candidates dance|chorales [--bars N] prints the
+candidate groups with their incipits as pitch names and as scale degrees relative to the last
+note; scripts/relatedness_candidates.py proposes the second-pass candidates (fuzzy titles and
+the alignment baseline).
 
 Outputs: target/relatedness/{dance,chorales,background}.json (generated, not committed) and
 tests/fixtures/relatedness/subset.json (committed, < 1 MB: whole families taken in a seeded
@@ -504,6 +507,20 @@ def write_doc(path, melodies):
     return path.stat().st_size
 
 
+def families_of(curated_set):
+    """The curated families with the second pass applied (docs/relatedness-data.md, "Second
+    pass"): each accepted addition joins its family, and the new families (background tunes
+    found to be one tune) follow the first-pass families."""
+    fams = [dict(f, members=list(f["members"])) for f in curated_set["families"]]
+    by_name = {f["name"]: f for f in fams}
+    for add in curated_set.get("additions", []):
+        by_name[add["family"]]["members"].append(add["source"])
+    fams.extend(dict(f, members=list(f["members"])) for f in curated_set.get("new_families", []))
+    if len({f["name"] for f in fams}) != len(fams):
+        raise SystemExit("error: two curated families share a name")
+    return fams
+
+
 def build(records, curated):
     by_source = {r["source"]: r for r in records}
     sets = {}
@@ -511,7 +528,7 @@ def build(records, curated):
     family_titles = set()
     for set_name in ("dance", "chorales"):
         out = []
-        for fam in curated[set_name]["families"]:
+        for fam in families_of(curated[set_name]):
             for src in fam["members"]:
                 rec = by_source.get(src)
                 if rec is None or "events" not in rec:
