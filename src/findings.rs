@@ -13,9 +13,9 @@ use crate::align::AlignParams;
 use crate::compare::differences::Difference;
 use crate::compare::harmony::HarmonicEvidence;
 use crate::compare::sync::SyncSummary;
-use crate::compare::Passage;
+use crate::compare::{Passage, Relatedness};
 use crate::corpus::{Commonness, CorpusSummary};
-use crate::stats::null::{NullParams, NullSummary, Significance};
+use crate::stats::chance::{ChanceParams, ChanceSummary, Significance};
 use crate::timeline::Piece;
 use serde::Serialize;
 
@@ -66,8 +66,8 @@ impl Finding {
 pub struct CompareSettings {
     /// Melodic alignment.
     pub align: AlignParams,
-    /// The shuffle null model (`shuffles` 0 turns it off).
-    pub null: NullParams,
+    /// The chance figures: which null, and its settings.
+    pub chance: ChanceParams,
     /// Harmonic comparison; `None` turns it off.
     pub harmony: Option<HarmonyParams>,
     /// Score following of a recording against a score; `None` keeps a recording's own
@@ -79,7 +79,7 @@ impl Default for CompareSettings {
     fn default() -> Self {
         CompareSettings {
             align: AlignParams::default(),
-            null: NullParams::default(),
+            chance: ChanceParams::default(),
             harmony: Some(HarmonyParams::default()),
             sync: Some(SyncParams::default()),
         }
@@ -95,8 +95,11 @@ pub struct Findings {
     pub b: Piece,
     /// Every setting used.
     pub settings: CompareSettings,
-    /// Overall similarity in [0, 1] (see [`crate::compare`]).
-    pub similarity: f64,
+    /// How related the two melodies are as wholes (see [`crate::compare`]).
+    pub relatedness: Relatedness,
+    /// Share of the shorter melody's possible evidence that the passages carry, in [0, 1]
+    /// (see [`crate::compare`]).
+    pub coverage: f64,
     /// Notes in A's melody.
     pub notes_a: usize,
     /// Notes in B's melody.
@@ -107,8 +110,8 @@ pub struct Findings {
     pub unmatched_b: usize,
     /// Shared passages, strongest first.
     pub passages: Vec<Finding>,
-    /// The null model behind the passages' significance, when computed.
-    pub null_model: Option<NullSummary>,
+    /// What the passages' chance figures rest on, when computed.
+    pub chance: Option<ChanceSummary>,
     /// The reference corpus consulted, when one was given.
     pub corpus: Option<CorpusSummary>,
     /// Evidence from the two pieces' chroma, when computed.
@@ -127,8 +130,10 @@ pub struct Hit {
     pub path: String,
     /// Title, when the file had one.
     pub title: Option<String>,
-    /// Similarity to the query in [0, 1] (as `compare` defines it).
-    pub similarity: f64,
+    /// Relatedness to the query (as `compare` defines it); hits are ranked by its value.
+    pub relatedness: Relatedness,
+    /// Coverage of the shorter melody by shared passages (as `compare` defines it).
+    pub coverage: f64,
     /// Shared passages, the query as A.
     pub passages: Vec<Finding>,
 }
@@ -144,6 +149,8 @@ pub struct SearchFindings {
     pub corpus_melodies: usize,
     /// Alignment settings used.
     pub align: AlignParams,
+    /// What the hits' chance figures rest on, when computed.
+    pub chance: Option<ChanceSummary>,
     /// Best first.
     pub hits: Vec<Hit>,
 }

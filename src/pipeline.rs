@@ -24,15 +24,16 @@
 
 use crate::align::sync::SyncParams;
 use crate::align::AlignParams;
+use crate::align::{best_score, self_score};
 use crate::compare::differences::differences;
 use crate::compare::harmony::harmonic_evidence;
 use crate::compare::recurrence::interval_recurrences;
 use crate::compare::sync::{follow_score, SyncSummary};
-use crate::compare::{compare, Side};
+use crate::compare::{compare, Relatedness, Side};
 use crate::corpus::CorpusIndex;
 use crate::features::Sequence;
 use crate::findings::{CompareSettings, Evidence, Finding, Findings, Hit, SearchFindings};
-use crate::stats::null::null_model;
+use crate::stats::chance::{chance_model, ChanceParams, NullChoice};
 use crate::timeline::Piece;
 use rayon::prelude::*;
 
@@ -54,16 +55,35 @@ pub struct SearchSettings {
     pub candidates: usize,
     /// Best matches kept. Default 10.
     pub top: usize,
+    /// The chance figures of the hits: the query against a sample of the corpus (the corpus
+    /// null); `null` other than automatic or off is not used in a search. Default automatic.
+    pub chance: ChanceParams,
 }
 
 impl Default for SearchSettings {
     fn default() -> Self {
         SearchSettings {
             align: AlignParams::default(),
-            candidates: 20,
+            candidates: 100,
             top: 10,
+            chance: ChanceParams::default(),
         }
     }
+}
+
+/// A sample of `count` melodies of a corpus, drawn with `seed` (all of them when the corpus is
+/// smaller), as sequences: the reference melodies of the corpus null.
+pub fn reference_melodies(index: &CorpusIndex, count: usize, seed: u64) -> Vec<Sequence> {
+    use rand::seq::index::sample;
+    use rand::SeedableRng;
+    let total = index.melodies.len();
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let mut picked: Vec<usize> = sample(&mut rng, total, count.min(total)).into_vec();
+    picked.sort_unstable();
+    picked
+        .par_iter()
+        .map(|&k| Sequence::from_piece(&index.melodies[k].to_piece()))
+        .collect()
 }
 
 /// When one work is a recording and the other a score or MIDI file, aligns the recording to
@@ -99,7 +119,20 @@ pub fn compare_works(
     let (a, b, synchronisation) = follow(a, b, settings.sync.as_ref());
     let comparison = compare(&a, &b, &settings.align);
     let (seq_a, seq_b) = (Sequence::from_piece(&a), Sequence::from_piece(&b));
-    let null = null_model(&seq_a, &seq_b, &settings.align, &settings.null);
+    let references = corpus.map(|c| {
+        reference_melodies(
+            c.index,
+            settings.chance.references,
+            settings.chance.shuffles.seed,
+        )
+    });
+    let chance = chance_model(
+        &seq_a,
+        &seq_b,
+        &settings.align,
+        &settings.chance,
+        references.as_deref(),
+    );
     let (corpus_summary, commonness) = match corpus {
         Some(c) => {
             let (summary, each) = crate::corpus::assess(
@@ -133,7 +166,7 @@ pub fn compare_works(
                 evidence.push(Evidence::Harmony);
             }
             Finding {
-                significance: null.as_ref().map(|m| m.significance(passage.score)),
+                significance: chance.as_ref().and_then(|m| m.significance(passage.score)),
                 commonness,
                 evidence,
                 differences: differences(&a, &b, &passage),
@@ -142,13 +175,14 @@ pub fn compare_works(
         })
         .collect();
     Findings {
-        similarity: comparison.similarity,
+        relatedness: comparison.relatedness,
+        coverage: comparison.coverage,
         notes_a: comparison.notes_a,
         notes_b: comparison.notes_b,
         unmatched_a: comparison.unmatched_a,
         unmatched_b: comparison.unmatched_b,
         passages,
-        null_model: null.map(|m| m.summary),
+        chance: chance.map(|m| m.summary),
         corpus: corpus_summary,
         harmony,
         synchronisation,
@@ -160,47 +194,96 @@ pub fn compare_works(
 }
 
 /// Searches a corpus for a query's melody: candidates retrieved by shared figures, each
-/// aligned in full as a comparison would, ranked by similarity (ties: the stronger top
+/// aligned in full as a comparison would, ranked by relatedness (ties: the stronger top
 /// passage, then the path); melodies sharing no passage are left out.
 pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -> SearchFindings {
     let seq = Sequence::from_piece(&query);
+    let references = reference_melodies(
+        corpus.index,
+        settings.chance.references,
+        settings.chance.shuffles.seed,
+    );
+    let chance_params = ChanceParams {
+        null: match settings.chance.null {
+            NullChoice::Off => NullChoice::Off,
+            _ => NullChoice::Auto,
+        },
+        ..settings.chance.clone()
+    };
+    // The corpus null of the query; with a corpus too small for it, the general null.
+    let chance = chance_model(
+        &seq,
+        &seq,
+        &settings.align,
+        &chance_params,
+        Some(&references),
+    );
     let pool = corpus.index.candidates(&seq, settings.candidates);
-    let mut hits: Vec<Hit> = pool
+    let self_query = self_score(&seq, (0, seq.len().saturating_sub(1)), &settings.align);
+    // Rank every candidate by relatedness from the scan alone; align in full, with passages
+    // and differences, only the best until `top` share a passage.
+    let mut ranked: Vec<(Relatedness, usize)> = pool
         .par_iter()
         .filter_map(|&(m, _)| {
             let entry = corpus.index.melodies.get(m as usize)?;
-            let piece = entry.to_piece();
-            let result = compare(&query, &piece, &settings.align);
-            (!result.passages.is_empty()).then(|| Hit {
-                path: entry.path.clone(),
-                title: entry.title.clone(),
-                similarity: result.similarity,
-                passages: result
-                    .passages
-                    .into_iter()
-                    .map(|p| {
-                        let found = differences(&query, &piece, &p);
-                        Finding::melodic(p, found)
-                    })
-                    .collect(),
-            })
+            let other = Sequence::from_piece(&entry.to_piece());
+            let best = best_score(&seq, &other, &settings.align);
+            let own = self_score(&other, (0, other.len().saturating_sub(1)), &settings.align);
+            (best >= settings.align.min_score)
+                .then(|| (Relatedness::of(best, self_query, own), m as usize))
         })
         .collect();
-    hits.sort_by(|a, b| {
-        b.similarity
-            .total_cmp(&a.similarity)
+    ranked.sort_by(|x, y| {
+        y.0.value
+            .total_cmp(&x.0.value)
+            .then_with(|| y.0.best_score.cmp(&x.0.best_score))
             .then_with(|| {
-                let top = |h: &Hit| h.passages.first().map_or(0, |p| p.passage.score);
-                top(b).cmp(&top(a))
+                let path = |k: usize| corpus.index.melodies[k].path.as_str();
+                path(x.1).cmp(path(y.1))
             })
-            .then_with(|| a.path.cmp(&b.path))
     });
+    let mut hits: Vec<Hit> = Vec::new();
+    for chunk in ranked.chunks(settings.top.max(1)) {
+        if hits.len() >= settings.top {
+            break;
+        }
+        let found: Vec<Hit> = chunk
+            .par_iter()
+            .filter_map(|&(_, m)| {
+                let entry = &corpus.index.melodies[m];
+                let piece = entry.to_piece();
+                let result = compare(&query, &piece, &settings.align);
+                (!result.passages.is_empty()).then(|| Hit {
+                    path: entry.path.clone(),
+                    title: entry.title.clone(),
+                    relatedness: result.relatedness,
+                    coverage: result.coverage,
+                    passages: result
+                        .passages
+                        .into_iter()
+                        .map(|p| {
+                            let found = differences(&query, &piece, &p);
+                            let significance = chance.as_ref().and_then(|c| {
+                                c.significance_at(p.score, result.notes_a, result.notes_b)
+                            });
+                            Finding {
+                                significance,
+                                ..Finding::melodic(p, found)
+                            }
+                        })
+                        .collect(),
+                })
+            })
+            .collect();
+        hits.extend(found);
+    }
     hits.truncate(settings.top);
     SearchFindings {
         query,
         corpus: corpus.path.to_string(),
         corpus_melodies: corpus.index.melodies.len(),
         align: settings.align.clone(),
+        chance: chance.map(|c| c.summary),
         hits,
     }
 }

@@ -449,3 +449,27 @@ fn the_scan_and_the_first_passage_equal_the_full_matrix_reference() {
     );
     assert!(passages > 100 && fragment_cases > 20);
 }
+
+/// A melody's score against itself, taken along the diagonal in linear time, equals the full
+/// reference's best local score of the melody with itself, for every parameter set, and the
+/// scan's.
+#[test]
+fn the_self_score_equals_the_best_self_alignment() {
+    let mut rng = ChaCha8Rng::seed_from_u64(SEED ^ 0x5E1F);
+    for (name, params) in parameter_sets() {
+        for case in 0..60 {
+            let len = rng.gen_range(1..=60);
+            let meter = [(4, 4), (3, 4), (6, 8), (2, 2)][case % 4];
+            let seq = sequence(&random_melody(&mut rng, len), meter);
+            let full = reference(&seq, &seq, &params);
+            let fast = collatio::align::self_score(&seq, (0, seq.len().saturating_sub(1)), &params);
+            assert_eq!(
+                i64::from(fast),
+                full,
+                "{name}, case {case}: {} notes, self score {fast}, reference {full}",
+                seq.len()
+            );
+            assert_eq!(fast, best_score(&seq, &seq, &params), "{name}, case {case}");
+        }
+    }
+}

@@ -33,9 +33,12 @@ fn compare_json_has_the_documented_fields() {
     let (code, stdout, stderr) = run(&["compare", &a, &b, "--format", "json"]);
     assert_eq!(code, 0, "{stderr}");
     let v: Value = serde_json::from_str(&stdout).unwrap();
-    assert_eq!(v["schema_version"], 1);
-    let similarity = v["similarity"].as_f64().unwrap();
-    assert!((0.0..=1.0).contains(&similarity));
+    assert_eq!(v["schema_version"], 2);
+    let relatedness = v["relatedness"]["value"].as_f64().unwrap();
+    assert!((0.0..=1.0).contains(&relatedness));
+    assert!((0.0..=1.0).contains(&v["coverage"].as_f64().unwrap()));
+    assert!(v["relatedness"]["self_score_a"].is_i64());
+    assert_eq!(v["chance"]["null"], "general");
     assert_eq!(v["a"]["source"]["sha256"].as_str().unwrap().len(), 64);
     assert!(v["parameters"]["gap_open"].is_i64());
     let passages = v["passages"].as_array().unwrap();
@@ -74,12 +77,15 @@ fn shuffle_runs_reach_the_null_model() {
             &b,
             "--format",
             "json",
+            "--null",
+            "shuffles",
             "--shuffle-runs",
             runs,
         ]);
         assert_eq!(code, 0, "{stderr}");
         let v: Value = serde_json::from_str(&stdout).unwrap();
-        v["null_model"].clone()
+        assert_eq!(v["chance"]["null"], "shuffles");
+        v["chance"]["shuffles"].clone()
     };
     let (pairs, fours) = (null_of("2"), null_of("4"));
     assert_eq!(pairs["run_length"], 2);

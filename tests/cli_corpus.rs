@@ -40,7 +40,7 @@ fn search_ranks_the_tune_family_first() {
         );
     }
     for h in hits {
-        let s = h["similarity"].as_f64().unwrap();
+        let s = h["relatedness"]["value"].as_f64().unwrap();
         assert!((0.0..=1.0).contains(&s));
         assert!(h["passages"].is_array());
     }

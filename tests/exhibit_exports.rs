@@ -83,8 +83,8 @@ fn expected(piece: &Piece, side: &collatio::report::notation::StaffView) -> Note
 fn melodic_findings() -> collatio::findings::Findings {
     let (a, b) = pieces();
     let settings = collatio::findings::CompareSettings {
-        null: collatio::stats::null::NullParams {
-            shuffles: 0,
+        chance: collatio::stats::chance::ChanceParams {
+            null: collatio::stats::chance::NullChoice::Off,
             ..Default::default()
         },
         harmony: None,

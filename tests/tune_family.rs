@@ -114,7 +114,7 @@ fn lyric_splittings_align_as_fragmentation_and_consolidation() {
     assert!(kinds.contains(&PairKind::Consolidation), "{kinds:?}");
 }
 
-/// "Clearly lower": under half the family's lowest similarity, and a top passage under a fifth
+/// "Clearly lower": under half the family's lowest relatedness, and a top passage under a fifth
 /// of the family's weakest top passage. (Stepwise tunes in one key do share short figures:
 /// the "Ode to Joy" theme and "Twinkle" share ten-note scale fragments; whether such a figure
 /// is commonplace is the corpus's question, not the aligner's.)
@@ -124,7 +124,7 @@ fn unrelated_tunes_score_clearly_lower() {
     for (i, a) in FAMILY.iter().enumerate() {
         for b in FAMILY.iter().skip(i + 1) {
             let (_, _, r) = run(a, b);
-            family_low.0 = family_low.0.min(r.similarity);
+            family_low.0 = family_low.0.min(r.relatedness.value);
             family_low.1 = family_low.1.min(r.passages[0].score);
         }
     }
@@ -133,9 +133,9 @@ fn unrelated_tunes_score_clearly_lower() {
             let (_, _, r) = run(a, b);
             let top = r.passages.first().map_or(0, |p| p.score);
             assert!(
-                r.similarity * 2.0 < family_low.0,
-                "{a} vs {b}: similarity {} against the family's lowest {}",
-                r.similarity,
+                r.relatedness.value * 2.0 < family_low.0,
+                "{a} vs {b}: relatedness {} against the family's lowest {}",
+                r.relatedness.value,
                 family_low.0
             );
             assert!(

@@ -173,8 +173,20 @@ pub struct Alignment {
 
 /// Finds the shared passages of two sequences, strongest first.
 pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment> {
+    align_scored(a, b, params).0
+}
+
+/// The shared passages of two sequences, strongest first, and the best local alignment score
+/// over all 12 transpositions ([`best_score`], found by the same first scan; it may lie below
+/// `min_score`, or belong to an alignment too short to report).
+pub fn align_scored(a: &Sequence, b: &Sequence, params: &AlignParams) -> (Vec<Alignment>, i32) {
     if a.is_empty() || b.is_empty() || params.max_passages == 0 {
-        return Vec::new();
+        let best = if params.max_passages == 0 {
+            best_score(a, b, params)
+        } else {
+            0
+        };
+        return (Vec::new(), best);
     }
     let scorer = Scorer::new(a, b, params);
     let mut blocked = Blocked::default();
@@ -185,6 +197,11 @@ pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment>
             .into_iter()
             .map(|hit| (hit, true))
             .collect();
+    let best = hits
+        .iter()
+        .filter_map(|h| h.0.map(|hit| hit.score))
+        .max()
+        .unwrap_or(0);
     let mut out = Vec::new();
     let mut guard = 0usize;
     while out.len() < params.max_passages && guard < 12 * (params.max_passages + 4) * 4 {
@@ -231,7 +248,26 @@ pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment>
             });
         }
     }
-    out
+    (out, best)
+}
+
+/// The score of a melody aligned with itself, over notes `range` (inclusive; the whole melody
+/// for `0..=len−1`): the best run of the diagonal pair scores, each note paired with itself at
+/// transposition 0, each note keeping its interval and rhythm into the note before it. With
+/// every match term at least as high as the near and mismatch terms (as the defaults are), no
+/// other path scores higher, so this equals [`best_score`] of the melody with itself (checked
+/// in the tests) at a cost linear in its length. 0 for an empty range.
+pub fn self_score(seq: &Sequence, range: (usize, usize), params: &AlignParams) -> i32 {
+    if seq.is_empty() || range.0 > range.1 {
+        return 0;
+    }
+    let scorer = Scorer::new(seq, seq, params);
+    let (mut best, mut run) = (0, 0);
+    for i in range.0..=range.1.min(seq.len() - 1) {
+        run = (run + scorer.pair(i, i, 0)).max(0);
+        best = best.max(run);
+    }
+    best
 }
 
 /// The best local alignment score of two sequences over all 12 transpositions, without
@@ -278,4 +314,67 @@ fn span(steps: &[Step], side_a: bool) -> Option<(usize, usize)> {
         hi = hi.max(last);
     }
     (lo <= hi).then_some((lo, hi))
+}
+
+/// The Karlin–Altschul λ of two melodies' own pair scores (Karlin & Altschul 1990, equation
+/// 3: the positive root of Σ p(s) e^(λs) = 1, with p(s) the share of note pairs (i, j) whose
+/// pair score is s), taken at the transposition where chance agreement is likeliest (the
+/// smallest root of the twelve). It measures how readily these two melodies agree by chance:
+/// two scale-wise tunes in one key agree more often than two angular ones, and their λ is
+/// smaller. `None` when no root exists (no positive pair score, or a non-negative mean).
+pub fn chance_lambda(a: &Sequence, b: &Sequence, params: &AlignParams) -> Option<f64> {
+    if a.is_empty() || b.is_empty() {
+        return None;
+    }
+    let scorer = Scorer::new(a, b, params);
+    // Histogram of pair scores per transposition, scores offset into a dense range.
+    let mut counts: Vec<std::collections::BTreeMap<i32, u64>> = vec![Default::default(); 12];
+    for i in 0..a.len() {
+        for j in 0..b.len() {
+            let context = scorer.context(i, j);
+            for (t, histogram) in counts.iter_mut().enumerate() {
+                *histogram
+                    .entry(context + scorer.pitch(i, j, t as u8))
+                    .or_default() += 1;
+            }
+        }
+    }
+    let total = (a.len() * b.len()) as f64;
+    counts
+        .iter()
+        .filter_map(|histogram| {
+            let p: Vec<(f64, f64)> = histogram
+                .iter()
+                .map(|(&s, &c)| (f64::from(s), c as f64 / total))
+                .collect();
+            solve_lambda(&p)
+        })
+        .min_by(f64::total_cmp)
+}
+
+/// The positive root of Σ p e^(λs) = 1 by bisection, for a score distribution with a negative
+/// mean and some positive score.
+fn solve_lambda(p: &[(f64, f64)]) -> Option<f64> {
+    let mean: f64 = p.iter().map(|(s, q)| s * q).sum();
+    let top = p.iter().map(|x| x.0).fold(f64::MIN, f64::max);
+    if mean >= 0.0 || top <= 0.0 {
+        return None;
+    }
+    let f = |l: f64| p.iter().map(|(s, q)| q * (l * s).exp()).sum::<f64>() - 1.0;
+    let (mut lo, mut hi) = (1e-9, 1.0);
+    while f(hi) < 0.0 {
+        hi *= 2.0;
+        if hi > 1e6 {
+            return None;
+        }
+    }
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if f(mid) < 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    Some(0.5 * (lo + hi))
 }

@@ -82,6 +82,15 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         align: args.alignment.params(),
         candidates: args.candidates,
         top: args.top,
+        chance: collatio::stats::chance::ChanceParams {
+            null: if args.no_chance {
+                collatio::stats::chance::NullChoice::Off
+            } else {
+                collatio::stats::chance::NullChoice::Auto
+            },
+            references: args.references as usize,
+            ..Default::default()
+        },
     };
     let path = args.corpus.display().to_string();
     let corpus = CorpusRef {

@@ -3,8 +3,8 @@
 //! In: two [`Piece`]s (each with its selected melody) and [`AlignParams`]. Out: a
 //! [`Comparison`] holding, for each passage, where it lies in both works (bar labels as
 //! printed, beats, seconds), how many notes, the transposition, the tempo ratio, the score, the
-//! percent melodic identity, agreement shares and the aligned note pairs; and one overall
-//! similarity for the pair.
+//! percent melodic identity, its relatedness, agreement shares and the aligned note pairs;
+//! and, for the whole pair, the relatedness and the coverage.
 //!
 //! Definitions (also in `docs/compare.md`):
 //! - **PMI** (percent melodic identity, after Savage, Cronin, Müllensiefen & Atkinson 2018):
@@ -13,7 +13,16 @@
 //!   under the passage's transposition. Without fragmentation this equals their formula,
 //!   identical aligned positions over the mean length of the two sequences; with it, a note
 //!   split into two equal notes counts as identical on both sides instead of leaving a gap.
-//! - **Similarity**: the passages' scores, each counted only for the notes of the shorter melody
+//! - **Relatedness** of two melodies: their best local alignment score S(a, b) over the
+//!   geometric mean of each melody's score against itself, S(a, b) / √(S(a, a) · S(b, b)),
+//!   capped to [0, 1]. 1 means identical melodies (in any key and tempo); it does not grow with
+//!   length, so pairs of any lengths compare on one scale, and a melody's own make-up (a
+//!   plain tune scores less against itself than a busy one) is in the denominator. The
+//!   normalisation by self-alignment scores is common in sequence comparison; its effect on
+//!   telling tune families from unrelated tunes is measured in `docs/relatedness.md`.
+//! - **Relatedness of a passage**: its score over the geometric mean of the self scores of the
+//!   notes it spans on each side (how close the passage comes to an exact copy of itself).
+//! - **Coverage**: the passages' scores, each counted only for the notes of the shorter melody
 //!   that no stronger passage already covers, over the score the shorter melody would get
 //!   aligned with itself, capped to [0, 1]: the share of the shorter melody's possible evidence
 //!   that the shared passages carry.
@@ -23,7 +32,7 @@ pub mod harmony;
 pub mod recurrence;
 pub mod sync;
 
-use crate::align::{align, AlignParams, Alignment, Step};
+use crate::align::{align_scored, self_score, AlignParams, Alignment, Step};
 use crate::features::Sequence;
 use crate::theory::{describe_transposition, key_name};
 use crate::timeline::{Note, Piece};
@@ -65,8 +74,10 @@ const RHYTHM_SAME: f64 = 0.1;
 pub struct Comparison {
     /// Shared passages, strongest first.
     pub passages: Vec<Passage>,
-    /// Overall similarity in [0, 1] (see the module documentation).
-    pub similarity: f64,
+    /// Relatedness of the two melodies (see the module documentation).
+    pub relatedness: Relatedness,
+    /// Coverage in [0, 1] (see the module documentation).
+    pub coverage: f64,
     /// Notes in A's melody.
     pub notes_a: usize,
     /// Notes in B's melody.
@@ -75,6 +86,41 @@ pub struct Comparison {
     pub unmatched_a: usize,
     /// Notes of B's melody inside no passage.
     pub unmatched_b: usize,
+}
+
+/// How related two melodies are, with the scores it comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Relatedness {
+    /// S(a, b) / √(S(a, a) · S(b, b)), in [0, 1].
+    pub value: f64,
+    /// S(a, b): the best local alignment score over all 12 transpositions.
+    pub best_score: i32,
+    /// S(a, a): A's melody aligned with itself.
+    pub self_score_a: i32,
+    /// S(b, b): B's melody aligned with itself.
+    pub self_score_b: i32,
+}
+
+impl Relatedness {
+    /// The figure from its three scores.
+    pub fn of(best_score: i32, self_score_a: i32, self_score_b: i32) -> Relatedness {
+        Relatedness {
+            value: normalised(best_score, self_score_a, self_score_b),
+            best_score,
+            self_score_a,
+            self_score_b,
+        }
+    }
+}
+
+/// A score over the geometric mean of two self scores, capped to [0, 1] (0 when either self
+/// score is not positive).
+fn normalised(score: i32, self_a: i32, self_b: i32) -> f64 {
+    let denominator = (f64::from(self_a) * f64::from(self_b)).sqrt();
+    if self_a <= 0 || self_b <= 0 {
+        return 0.0;
+    }
+    (f64::from(score) / denominator).clamp(0.0, 1.0)
 }
 
 /// Where a passage lies in one work.
@@ -179,6 +225,9 @@ pub struct Passage {
     pub score: i32,
     /// Percent melodic identity (module documentation).
     pub pmi: f64,
+    /// The passage's score over the geometric mean of the self scores of its notes on each
+    /// side, in [0, 1] (module documentation).
+    pub relatedness: f64,
     /// Agreement shares.
     pub agreement: Agreement,
     /// The alignment path.
@@ -189,13 +238,15 @@ pub struct Passage {
 pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
     let seq_a = Sequence::from_piece(a);
     let seq_b = Sequence::from_piece(b);
-    let alignments = align(&seq_a, &seq_b, params);
+    let (alignments, best) = align_scored(&seq_a, &seq_b, params);
     let passages: Vec<Passage> = alignments
         .iter()
         .enumerate()
-        .map(|(i, al)| passage(i + 1, al, a, b, &seq_a, &seq_b))
+        .map(|(i, al)| passage(i + 1, al, (a, b), (&seq_a, &seq_b), params))
         .collect();
-    let similarity = similarity(&alignments, seq_a.len(), seq_b.len(), params);
+    let coverage = coverage(&alignments, seq_a.len(), seq_b.len(), params);
+    let whole = |seq: &Sequence| self_score(seq, (0, seq.len().saturating_sub(1)), params);
+    let relatedness = Relatedness::of(best, whole(&seq_a), whole(&seq_b));
     let covered = |len: usize, ranges: Vec<(usize, usize)>| {
         let mut inside = vec![false; len];
         for (lo, hi) in ranges {
@@ -206,7 +257,8 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         inside.iter().filter(|f| !**f).count()
     };
     Comparison {
-        similarity,
+        relatedness,
+        coverage,
         notes_a: seq_a.len(),
         notes_b: seq_b.len(),
         unmatched_a: covered(seq_a.len(), alignments.iter().map(|x| x.a_range).collect()),
@@ -215,10 +267,10 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
     }
 }
 
-/// Overall similarity: the passages' scores, each counted only for the notes of the shorter
-/// melody that no stronger passage already covers, over the score of the shorter melody
-/// aligned with itself; capped to [0, 1].
-fn similarity(alignments: &[Alignment], len_a: usize, len_b: usize, params: &AlignParams) -> f64 {
+/// Coverage: the passages' scores, each counted only for the notes of the shorter melody that
+/// no stronger passage already covers, over the score of the shorter melody aligned with
+/// itself; capped to [0, 1].
+fn coverage(alignments: &[Alignment], len_a: usize, len_b: usize, params: &AlignParams) -> f64 {
     let a_is_shorter = len_a <= len_b;
     let shorter = len_a.min(len_b);
     let best = shorter as f64 * f64::from(params.identical_pair());
@@ -273,10 +325,9 @@ fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {
 fn passage(
     rank: usize,
     al: &Alignment,
-    a: &Piece,
-    b: &Piece,
-    seq_a: &Sequence,
-    seq_b: &Sequence,
+    (a, b): (&Piece, &Piece),
+    (seq_a, seq_b): (&Sequence, &Sequence),
+    params: &AlignParams,
 ) -> Passage {
     let t = al.transposition;
     let equal = |i: usize, j: usize| {
@@ -439,6 +490,11 @@ fn passage(
         note_value_ratio,
         score: al.score,
         pmi,
+        relatedness: normalised(
+            al.score,
+            self_score(seq_a, al.a_range, params),
+            self_score(seq_b, al.b_range, params),
+        ),
         agreement: Agreement {
             pitch_class,
             interval,

@@ -12,7 +12,7 @@
 //! corrupt file gets a clear error.
 
 use super::melody::MelodyEntry;
-use crate::features::Sequence;
+use crate::features::{interval_size_class, Sequence};
 use bincode::Options;
 use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
@@ -20,10 +20,15 @@ use std::collections::BTreeMap;
 
 /// Tokens per indexed figure (a figure of four tokens spans five notes).
 pub const NGRAM: usize = 4;
+/// Interval size classes per contour figure, the second kind of figure retrieval uses (five
+/// classes span six notes).
+pub const CONTOUR_NGRAM: usize = 5;
+/// Marks a contour figure's key, so that the two kinds never collide.
+const CONTOUR_TAG: u64 = 1 << 63;
 /// Index file magic.
 pub const MAGIC: &[u8; 16] = b"COLLATIO-CORPUS\0";
 /// Index format version.
-pub const VERSION: u32 = 1;
+pub const VERSION: u32 = 2;
 const HEADER: usize = 16 + 4 + 8 + 32;
 
 /// Problems with an index file.
@@ -72,6 +77,32 @@ pub fn tokens(seq: &Sequence) -> Vec<u16> {
         .collect()
 }
 
+/// The interval size class ([`crate::features::interval_size_class`]) into each note after
+/// the first, rhythm left out: a token that a change of mode or of rhythm leaves alone.
+pub fn contour_tokens(seq: &Sequence) -> Vec<u16> {
+    seq.notes
+        .iter()
+        .skip(1)
+        .map(|n| (i16::from(interval_size_class(n.interval.unwrap_or(0))) + 8) as u16)
+        .collect()
+}
+
+/// Every figure retrieval looks up, distinct and sorted: the interval-and-rhythm figures
+/// ([`NGRAM`] tokens) and the contour figures ([`CONTOUR_NGRAM`] interval size classes).
+/// Variants of one tune often change rhythm or mode in places; the two kinds together find
+/// more of them than either alone (measured in `docs/relatedness.md`).
+pub fn retrieval_figures(seq: &Sequence) -> Vec<u64> {
+    let mut figs = figures(&tokens(seq), NGRAM);
+    figs.extend(
+        figures(&contour_tokens(seq), CONTOUR_NGRAM)
+            .into_iter()
+            .map(|f| f | CONTOUR_TAG),
+    );
+    figs.sort_unstable();
+    figs.dedup();
+    figs
+}
+
 /// The figures (runs of `n` tokens) of a token sequence, packed into integers.
 pub fn figures(tokens: &[u16], n: usize) -> Vec<u64> {
     tokens
@@ -93,10 +124,7 @@ impl CorpusIndex {
         let mut postings: BTreeMap<u64, Vec<u32>> = BTreeMap::new();
         for (id, m) in melodies.iter().enumerate() {
             let seq = Sequence::from_piece(&m.to_piece());
-            let mut figs = figures(&tokens(&seq), NGRAM);
-            figs.sort_unstable();
-            figs.dedup();
-            for f in figs {
+            for f in retrieval_figures(&seq) {
                 postings.entry(f).or_default().push(id as u32);
             }
         }
@@ -175,14 +203,11 @@ impl CorpusIndex {
         }
     }
 
-    /// Candidate melodies for a query: IDF-weighted count of shared figures, best first, at
-    /// most `limit` (ties by index order).
+    /// Candidate melodies for a query: IDF-weighted count of the shared figures of both kinds
+    /// ([`retrieval_figures`]), best first, at most `limit` (ties by index order).
     pub fn candidates(&self, query: &Sequence, limit: usize) -> Vec<(u32, f64)> {
-        let mut figs = figures(&tokens(query), self.ngram);
-        figs.sort_unstable();
-        figs.dedup();
         let mut weight: BTreeMap<u32, f64> = BTreeMap::new();
-        for f in figs {
+        for f in retrieval_figures(query) {
             let idf = self.idf(f);
             for &m in self.postings_of(f) {
                 *weight.entry(m).or_default() += idf;

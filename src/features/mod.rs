@@ -68,6 +68,19 @@ pub fn metric_level(offset: f64, bar_length: f64, signature: (u32, u32)) -> Metr
     }
 }
 
+/// The size class of an interval, signed by its direction: the diatonic size a semitone count
+/// most often spells, with the minor and major (or perfect and augmented) forms of one size
+/// merged — unison 0, second 1 (1–2 semitones), third 2 (3–4), fourth 3 (5–6), fifth 4 (7),
+/// sixth 5 (8–9), seventh 6 (10–11), octave 7 (12); larger intervals count as an octave. A
+/// tune and its variant in another mode (A major against A minor, a raised or lowered seventh)
+/// keep the same classes where their semitone intervals differ by one: interval sizes as
+/// common practice names them.
+pub fn interval_size_class(semitones: i32) -> i8 {
+    const CLASS: [i8; 13] = [0, 1, 1, 2, 2, 3, 3, 4, 5, 5, 6, 6, 7];
+    let size = semitones.unsigned_abs().min(12) as usize;
+    semitones.signum() as i8 * CLASS[size]
+}
+
 /// One note of a sequence.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct SeqNote {

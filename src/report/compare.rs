@@ -1,7 +1,7 @@
 //! The `compare` report: a short table of passages for people, or the JSON record
 //! (schema in `docs/compare-json.md`).
 
-use super::cautions::shuffle_caution;
+use super::cautions::{chance_caution, chance_words};
 use super::format::{bar_span, format_e_value, trim_number};
 use crate::align::AlignParams;
 use crate::compare::harmony::HarmonicSide;
@@ -13,7 +13,7 @@ use crate::timeline::{ChromaSource, Piece};
 use serde::Serialize;
 
 /// Version of the compare JSON layout.
-pub const COMPARE_SCHEMA_VERSION: u32 = 1;
+pub const COMPARE_SCHEMA_VERSION: u32 = 2;
 
 /// One input work as the record describes it.
 #[derive(Debug, Serialize)]
@@ -47,10 +47,12 @@ pub struct CompareRecord {
     pub b: WorkRecord,
     /// Every alignment parameter used.
     pub parameters: AlignParams,
-    /// Overall similarity in [0, 1].
-    pub similarity: f64,
+    /// Relatedness of the two melodies as wholes, with its scores.
+    pub relatedness: crate::compare::Relatedness,
+    /// Coverage of the shorter melody by the passages, in [0, 1].
+    pub coverage: f64,
     /// The null model behind the E-values (`null` when not computed).
-    pub null_model: Option<crate::stats::null::NullSummary>,
+    pub chance: Option<crate::stats::chance::ChanceSummary>,
     /// The reference corpus consulted (`null` when none was given).
     pub corpus: Option<crate::corpus::CorpusSummary>,
     /// Shared passages, strongest first.
@@ -88,8 +90,9 @@ pub fn record(findings: &Findings) -> CompareRecord {
         a: work(a, result.notes_a, result.unmatched_a),
         b: work(b, result.notes_b, result.unmatched_b),
         parameters: findings.settings.align.clone(),
-        similarity: result.similarity,
-        null_model: result.null_model.clone(),
+        relatedness: result.relatedness,
+        coverage: result.coverage,
+        chance: result.chance.clone(),
         corpus: result.corpus.clone(),
         passages: result.passages.clone(),
         harmony: result.harmony.clone(),
@@ -129,8 +132,9 @@ pub fn render_text(findings: &Findings) -> String {
     out.push_str(&describe("B", b, result.notes_b));
     out.push('\n');
     out.push_str(&format!(
-        "similarity {:.2} (0 = nothing shared, 1 = the shorter melody entirely shared); {} passage{}\n",
-        result.similarity,
+        "relatedness {:.2} (0 = nothing shared, 1 = the same melody); coverage {:.2} of the shorter melody; {} passage{}\n",
+        result.relatedness.value,
+        result.coverage,
         result.passages.len(),
         if result.passages.len() == 1 { "" } else { "s" }
     ));
@@ -165,14 +169,12 @@ pub fn render_text(findings: &Findings) -> String {
         "\n tempo: how much faster B performs the passage; PMI: percent melodic identity \
          (identical notes after transposing, both sides counted)\n",
     );
-    if let Some(null) = &result.null_model {
+    if let Some(chance) = &result.chance {
         out.push_str(&format!(
-            " E-value: how many passages this strong to expect between unrelated melodies of \
-             the same make-up ({} shuffled pairs, seed {}; shuffled best scores {:.0} ± {:.0}, \
-             highest {})\n",
-            null.shuffles, null.seed, null.mean, null.sd, null.max
+            " E-value: how many passages this strong to expect by chance. {}\n",
+            chance_words(chance)
         ));
-        let caution = shuffle_caution(null);
+        let caution = chance_caution(chance);
         if !caution.is_empty() {
             out.push_str(&format!(" {caution}\n"));
         }

@@ -1,11 +1,13 @@
 //! The `search` report: the best matches of a query in a corpus, as a table for people or as
 //! the JSON record (schema in `docs/compare-json.md`, section "search").
 
+use super::cautions::{absence_caution, chance_words, short_text};
+use super::format::format_e_value;
 use crate::findings::{Hit, SearchFindings};
 use serde::Serialize;
 
 /// Version of the search JSON layout.
-pub const SEARCH_SCHEMA_VERSION: u32 = 1;
+pub const SEARCH_SCHEMA_VERSION: u32 = 2;
 
 /// The JSON record of `search`.
 #[derive(Debug, Serialize)]
@@ -18,8 +20,12 @@ pub struct SearchRecord<'a> {
     pub corpus: &'a str,
     /// Melodies in the corpus.
     pub corpus_melodies: usize,
+    /// What the hits' chance figures rest on.
+    pub chance: Option<&'a crate::stats::chance::ChanceSummary>,
     /// Best first.
     pub hits: &'a [Hit],
+    /// The usual cautions, in short.
+    pub cautions: Vec<&'static str>,
 }
 
 /// Builds the record.
@@ -29,7 +35,9 @@ pub fn record(found: &SearchFindings) -> SearchRecord<'_> {
         query: &found.query.provenance,
         corpus: &found.corpus,
         corpus_melodies: found.corpus_melodies,
+        chance: found.chance.as_ref(),
         hits: &found.hits,
+        cautions: super::cautions::SHORT.to_vec(),
     }
 }
 
@@ -41,11 +49,13 @@ pub fn render_text(found: &SearchFindings) -> String {
     );
     if found.hits.is_empty() {
         out.push_str("No melody of the corpus shares a passage with the query.\n");
+        out.push_str(&format!("{}\n", absence_caution(found.corpus_melodies)));
+        out.push_str(&short_text());
         return out;
     }
     out.push_str(&format!(
-        " {:>2}  {:>10}  {:<40} {}\n",
-        "#", "similarity", "melody", "best passage (query bars / corpus bars)"
+        " {:>2}  {:>11}  {:>8}  {:<40} {}\n",
+        "#", "relatedness", "E-value", "melody", "best passage (query bars / corpus bars)"
     ));
     for (i, h) in found.hits.iter().enumerate() {
         let best = h.passages.first().map_or_else(String::new, |f| {
@@ -56,13 +66,31 @@ pub fn render_text(found: &SearchFindings) -> String {
             )
         });
         let name: String = h.path.chars().take(40).collect();
+        let e = h
+            .passages
+            .first()
+            .and_then(|f| f.significance.as_ref())
+            .map_or_else(|| "-".to_string(), |s| format_e_value(s.e_value));
         out.push_str(&format!(
-            " {:>2}  {:>10.2}  {:<40} {}\n",
+            " {:>2}  {:>11.2}  {:>8}  {:<40} {}\n",
             i + 1,
-            h.similarity,
+            h.relatedness.value,
+            e,
             name,
             best
         ));
     }
+    out.push_str(
+        "\n relatedness: the best shared passage's score over the geometric mean of each \
+         melody's score against itself (1 = the same melody, 0 = nothing shared)\n",
+    );
+    if let Some(chance) = &found.chance {
+        out.push_str(&format!(
+            " E-value: how many passages this strong to expect by chance. {}\n",
+            chance_words(chance)
+        ));
+    }
+    out.push_str(&format!(" {}\n", absence_caution(found.corpus_melodies)));
+    out.push_str(&short_text());
     out
 }

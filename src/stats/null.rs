@@ -11,6 +11,7 @@
 
 use super::gumbel::Gumbel;
 use super::shuffle::shuffle_keeping_runs;
+use super::significance::{NullKind, Significance};
 use crate::align::{best_score, AlignParams};
 use crate::features::Sequence;
 use rand::SeedableRng;
@@ -18,25 +19,10 @@ use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 use serde::Serialize;
 
-/// How unlikely a passage's score is between unrelated melodies of the same make-up (see
-/// `docs/statistics.md`).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Significance {
-    /// Expected number of passages scoring at least this high between unrelated melodies of
-    /// these lengths and make-up.
-    pub e_value: f64,
-    /// Probability that the best unrelated passage scores at least this high:
-    /// 1 − exp(−E).
-    pub p_value: f64,
-    /// Share of the shuffled pairs whose best passage scored at least this high, with the
-    /// usual +1 correction: (count + 1) / (shuffles + 1).
-    pub empirical_p: f64,
-}
-
-/// Parameters of the null model.
+/// Parameters of the shuffle null model.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct NullParams {
-    /// Shuffled pairs scored; 0 turns the null model off. Default 100.
+    /// Shuffled pairs scored; 0 turns the shuffle null off. Default 100.
     pub shuffles: usize,
     /// Seed of the random generator. Default 20261201.
     pub seed: u64,
@@ -55,6 +41,12 @@ impl Default for NullParams {
         }
     }
 }
+
+/// Fewest distinct shuffled orders of each melody on which an E-value may rest: with fewer,
+/// the shuffles are mostly copies of the melody itself (a melody with no repeated figure of
+/// three pitches has exactly one order under a shuffle that keeps runs of four), and their
+/// scores say little about unrelated melodies.
+pub const MIN_DISTINCT_DRAWS: usize = 50;
 
 /// What the null model found, as the report states it.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -90,6 +82,12 @@ impl NullSummary {
     /// shuffles, so that the chance figures are conservative (see [`NullSummary::distinct_a`]).
     pub fn few_orders(&self) -> bool {
         self.shuffles > 0 && 2 * self.distinct_a.min(self.distinct_b) < self.shuffles
+    }
+
+    /// Whether either melody's shuffles gave fewer than [`MIN_DISTINCT_DRAWS`] distinct
+    /// pitch orders: then no E-value rests on them.
+    pub fn too_few_draws(&self) -> bool {
+        self.distinct_a.min(self.distinct_b) < MIN_DISTINCT_DRAWS
     }
 }
 
@@ -168,29 +166,19 @@ impl NullModel {
             Some(g) => Significance {
                 e_value: g.e_value(x),
                 p_value: g.p_value(x),
-                empirical_p,
+                empirical_p: Some(empirical_p),
+                null: NullKind::Shuffles,
             },
             // No spread among the shuffles (e.g. no shuffled pair aligns at all): only the
             // empirical value is meaningful; E is taken from it.
             None => Significance {
                 e_value: -(1.0 - empirical_p).ln(),
                 p_value: empirical_p,
-                empirical_p,
+                empirical_p: Some(empirical_p),
+                null: NullKind::Shuffles,
             },
         }
     }
-}
-
-/// The null model of a pair of melodies, unless it is turned off (`shuffles` 0) or either
-/// melody is empty.
-pub fn null_model(
-    a: &Sequence,
-    b: &Sequence,
-    align: &AlignParams,
-    params: &NullParams,
-) -> Option<NullModel> {
-    (params.shuffles > 0 && !a.is_empty() && !b.is_empty())
-        .then(|| NullModel::fit(a, b, align, params))
 }
 
 #[cfg(test)]

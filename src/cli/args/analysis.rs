@@ -50,10 +50,36 @@ impl HarmonyArgs {
     }
 }
 
+/// `--null` values.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum NullArg {
+    /// The corpus null with --corpus, else the general null (default scoring), else shuffles.
+    Auto,
+    /// The general null fitted on real melodies and shipped with collatio.
+    General,
+    /// Shuffles of the two melodies.
+    Shuffles,
+    /// No chance figures.
+    Off,
+}
+
 /// The null model of unrelated melodies.
 #[derive(Debug, Args)]
 pub struct StatisticsArgs {
-    /// Shuffled pairs scored for the null model (0 = no E-values).
+    /// Null model behind the E-values: auto takes the corpus null with --corpus (A against the
+    /// corpus melodies), else the general null fitted on real melodies, else shuffles.
+    #[arg(long, value_enum, default_value_t = NullArg::Auto, help_heading = "STATISTICS")]
+    pub null: NullArg,
+    /// Corpus melodies the corpus null is fitted on.
+    #[arg(
+        long,
+        default_value_t = 300,
+        value_name = "N",
+        value_parser = clap::value_parser!(u64).range(50..=100_000),
+        help_heading = "STATISTICS"
+    )]
+    pub references: u64,
+    /// Shuffled pairs scored when the shuffle null is used (0 = no E-values from it).
     #[arg(
         long,
         default_value_t = 100,
@@ -83,11 +109,21 @@ pub struct StatisticsArgs {
 
 impl StatisticsArgs {
     /// The library parameters.
-    pub fn null_params(&self) -> collatio::stats::null::NullParams {
-        collatio::stats::null::NullParams {
-            shuffles: self.shuffles,
-            seed: self.seed,
-            run_length: usize::from(self.shuffle_runs),
+    pub fn chance_params(&self) -> collatio::stats::chance::ChanceParams {
+        use collatio::stats::chance::NullChoice;
+        collatio::stats::chance::ChanceParams {
+            null: match self.null {
+                NullArg::Auto => NullChoice::Auto,
+                NullArg::General => NullChoice::General,
+                NullArg::Shuffles => NullChoice::Shuffles,
+                NullArg::Off => NullChoice::Off,
+            },
+            references: self.references as usize,
+            shuffles: collatio::stats::null::NullParams {
+                shuffles: self.shuffles,
+                seed: self.seed,
+                run_length: usize::from(self.shuffle_runs),
+            },
         }
     }
 }

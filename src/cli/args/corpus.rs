@@ -44,8 +44,21 @@ pub struct SearchArgs {
     pub top: usize,
     /// Candidates retrieved by shared figures and then aligned in full (raise it to look
     /// deeper in corpora full of near-duplicates; each costs one full alignment).
-    #[arg(long, default_value_t = 20, help_heading = "SEARCH")]
+    #[arg(long, default_value_t = 100, help_heading = "SEARCH")]
     pub candidates: usize,
+    /// Corpus melodies the query is aligned with to fit the chance figures of its hits
+    /// (the corpus null, Pearson 1998).
+    #[arg(
+        long,
+        default_value_t = 300,
+        value_name = "N",
+        value_parser = clap::value_parser!(u64).range(50..=100_000),
+        help_heading = "SEARCH"
+    )]
+    pub references: u64,
+    /// Leave out the chance figures of the hits.
+    #[arg(long, help_heading = "SEARCH")]
+    pub no_chance: bool,
     #[command(flatten)]
     pub alignment: AlignmentArgs,
     #[command(flatten)]

@@ -142,7 +142,7 @@ impl CompareArgs {
     pub fn settings(&self) -> Result<CompareSettings, UsageError> {
         Ok(CompareSettings {
             align: self.alignment.params(),
-            null: self.statistics.null_params(),
+            chance: self.statistics.chance_params(),
             harmony: self.harmony.params()?,
             sync: self.harmony.sync_params(),
         })

@@ -5,7 +5,7 @@ use super::params::{param_rows, ParamRow};
 use super::passages::{passage_context, PassageContext};
 use super::prepared::Exhibit;
 use super::works::{work_context, WorkContext};
-use crate::report::cautions::shuffle_caution;
+use crate::report::cautions::{chance_caution, chance_words};
 use crate::report::format::trim_number;
 use serde::Serialize;
 
@@ -28,8 +28,10 @@ pub struct ExhibitContext {
     pub a: WorkContext,
     /// Work B.
     pub b: WorkContext,
-    /// Overall similarity.
-    pub similarity: String,
+    /// Relatedness of the two melodies as wholes.
+    pub relatedness: String,
+    /// Coverage of the shorter melody by passages.
+    pub coverage: String,
     /// Passages.
     pub passages: Vec<PassageContext>,
     /// Parameters.
@@ -44,40 +46,14 @@ pub struct ExhibitContext {
     pub any_audio: bool,
     /// Fingerprint of inputs and options (SHA-256, hex).
     pub fingerprint: String,
-    /// The statistics stage's summary of its null model, as `name = value` pairs (empty when
-    /// it did not run).
-    pub null_model: String,
-    /// A caution when the null model's shuffles gave few distinct pitch orders (empty
-    /// otherwise).
-    pub shuffle_caution: String,
+    /// What the chance figures rest on, in sentences (empty when they were not computed).
+    pub chance: String,
+    /// The caution that goes with the null used (empty when none).
+    pub chance_caution: String,
     /// Harmonic evidence, when computed.
     pub harmony: Option<HarmonyContext>,
     /// A recording placed on a score, when one work is each.
     pub sync: Option<SyncContext>,
-}
-
-/// The scalar fields of a serialised summary as `name = value, ...` (numbers to 4 places).
-fn summary_text(value: &serde_json::Value) -> String {
-    match value {
-        serde_json::Value::Object(map) => map
-            .iter()
-            .filter_map(|(k, v)| {
-                let text = match v {
-                    serde_json::Value::Number(n) => n
-                        .as_i64()
-                        .map(|i| i.to_string())
-                        .or_else(|| n.as_u64().map(|u| u.to_string()))
-                        .unwrap_or_else(|| trim_number(n.as_f64().unwrap_or(0.0), 4)),
-                    serde_json::Value::String(s) => s.clone(),
-                    serde_json::Value::Bool(b) => b.to_string(),
-                    _ => return None,
-                };
-                Some(format!("{} = {text}", k.replace('_', " ")))
-            })
-            .collect::<Vec<_>>()
-            .join(", "),
-        _ => String::new(),
-    }
 }
 
 /// Builds the templates' context.
@@ -94,7 +70,8 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         common_key: ex.options.common_key.clone(),
         a: work_context("A", &ex.label_a, ex.a, r.notes_a, r.unmatched_a, &ranges_a),
         b: work_context("B", &ex.label_b, ex.b, r.notes_b, r.unmatched_b, &ranges_b),
-        similarity: trim_number(r.similarity, 2),
+        relatedness: trim_number(r.relatedness.value, 2),
+        coverage: trim_number(r.coverage, 2),
         passages: r
             .passages
             .iter()
@@ -118,14 +95,8 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         any_corpus: r.passages.iter().any(|p| p.commonness.is_some()),
         any_audio: ex.a.bars.iter().chain(&ex.b.bars).any(|b| b.estimated),
         fingerprint: ex.fingerprint(),
-        null_model: serde_json::to_value(&r.null_model)
-            .map(|v| summary_text(&v))
-            .unwrap_or_default(),
-        shuffle_caution: r
-            .null_model
-            .as_ref()
-            .map(shuffle_caution)
-            .unwrap_or_default(),
+        chance: r.chance.as_ref().map(chance_words).unwrap_or_default(),
+        chance_caution: r.chance.as_ref().map(chance_caution).unwrap_or_default(),
         harmony: harmony_context(r.harmony.as_ref()),
         sync: sync_context(r.synchronisation.as_ref()),
     }

@@ -91,6 +91,8 @@ pub struct PassageContext {
     pub score: i32,
     /// PMI.
     pub pmi: String,
+    /// The passage's relatedness (its score over its notes' self scores).
+    pub relatedness: String,
     /// Agreement percentages.
     pub agree_pitch: String,
     /// Intervals.
@@ -184,6 +186,7 @@ pub fn passage_context(ex: &Exhibit<'_>, f: &Finding, view: &PassageView) -> Pas
         same_values: (p.note_value_ratio - 1.0).abs() < 0.01,
         score: p.score,
         pmi: trim_number(p.pmi, 1),
+        relatedness: trim_number(p.relatedness, 2),
         agree_pitch: percent(p.agreement.pitch_class),
         agree_interval: percent(p.agreement.interval),
         agree_rhythm: percent(p.agreement.rhythm),

@@ -91,7 +91,7 @@ impl<'a> Exhibit<'a> {
         // The statistics, harmony and score-following settings shape the document as well.
         let r = self.findings;
         for settings in [
-            serde_json::to_string(&r.null_model),
+            serde_json::to_string(&r.chance),
             serde_json::to_string(&r.harmony.as_ref().map(|x| &x.parameters)),
             serde_json::to_string(&r.synchronisation.as_ref().map(|x| &x.parameters)),
         ] {
