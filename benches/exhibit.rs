@@ -11,11 +11,11 @@ use std::path::Path;
 fn bench(c: &mut Criterion) {
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo");
     let a = read_file(
-        &root.join("harbour-lights.musicxml"),
+        &root.join("pierside-lamps.musicxml"),
         &ReadOptions::default(),
     )
     .unwrap();
-    let b = read_file(&root.join("paper-boats.musicxml"), &ReadOptions::default()).unwrap();
+    let b = read_file(&root.join("millstream-boats.musicxml"), &ReadOptions::default()).unwrap();
     let findings = collatio::pipeline::compare_works(
         a,
         b,

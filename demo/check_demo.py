@@ -3,8 +3,8 @@
 
     .venv/bin/python demo/check_demo.py
 
-Prints the borrowed passage of both songs as music21 reads it, checks that Paper Boats bars
-17-24 are Harbour Lights bars 9-16 moved down 9 semitones with exactly the changes listed in
+Prints the borrowed passage of both songs as music21 reads it, checks that Millstream Boats bars
+17-24 are Pierside Lamps bars 9-16 moved down 9 semitones with exactly the changes listed in
 the README, that the alto saxophone sounds in unison with the voice there, that the MIDI files
 hold the same notes as the MusicXML, and where the common four-note turn occurs. Exits non-zero
 on the first failed check.
@@ -84,7 +84,7 @@ def show(title: str, rows) -> None:
 
 
 # ---------------------------------------------------------------- expectations -------------
-# The README's list of differences, as data: Harbour Lights bars 9-16 (bar 9 -> 0 here),
+# The README's list of differences, as data: Pierside Lamps bars 9-16 (bar 9 -> 0 here),
 # moved by TRANSPOSITION semitones, then edited.
 TRANSPOSITION = -9
 A_HOOK, B_HOOK = (9, 16), (17, 24)
@@ -264,19 +264,19 @@ def main() -> int:
     for f in xml_files:
         check(note_order_ok(f), f"{os.path.relpath(f, HERE)}")
 
-    a = scores["harbour-lights.musicxml"]
-    b = scores["paper-boats.musicxml"]
+    a = scores["pierside-lamps.musicxml"]
+    b = scores["millstream-boats.musicxml"]
     a_voice, b_voice, b_sax = a.parts[0], b.parts[0], b.parts[1]
 
     print("\nStructure:")
     a_nums = [m.number for m in a_voice.getElementsByClass("Measure")]
     check(a_nums[0] == 0 and a_voice.getElementsByClass("Measure")[0].duration.quarterLength
-          == 1, "Harbour Lights starts with a one-beat pickup numbered 0")
-    check(a_nums[-1] == 24, "Harbour Lights has bars 1-24 after the pickup")
+          == 1, "Pierside Lamps starts with a one-beat pickup numbered 0")
+    check(a_nums[-1] == 24, "Pierside Lamps has bars 1-24 after the pickup")
     check([m.number for m in b_voice.getElementsByClass("Measure")] == list(range(1, 33)),
-          "Paper Boats has bars 1-32")
+          "Millstream Boats has bars 1-32")
     check([p.partName for p in whole_parts(b)] == ["Voice", "Alto Sax", "Piano"],
-          "Paper Boats has the parts Voice, Alto Sax, Piano (two staves)")
+          "Millstream Boats has the parts Voice, Alto Sax, Piano (two staves)")
     tr = b_sax.recurse().getElementsByClass("Instrument")[0].transposition
     check(tr is not None and tr.semitones == -9, f"Alto Sax sounds {tr.semitones if tr else '?'}"
           " semitones from the written notes (a major sixth down)")
@@ -285,14 +285,14 @@ def main() -> int:
     b_rows = notes_of(b_voice, *B_HOOK)
     sax_written = notes_of(b_sax, *B_HOOK)
     sax_sounding = notes_of(b_sax, *B_HOOK, sounding=True)
-    show("Harbour Lights, voice, bars 9-16 (as music21 reads it; ties merged):", a_rows)
-    show("Paper Boats, voice, bars 17-24:", b_rows)
-    show("Paper Boats, alto sax, bars 17-24, written pitch:", sax_written)
+    show("Pierside Lamps, voice, bars 9-16 (as music21 reads it; ties merged):", a_rows)
+    show("Millstream Boats, voice, bars 17-24:", b_rows)
+    show("Millstream Boats, alto sax, bars 17-24, written pitch:", sax_written)
 
     print("\nThe borrowing:")
     exp = expected_b(a_rows)
     got = [(bar, off, ql, midi, grace) for bar, off, ql, midi, _, _, grace in b_rows]
-    check(got == exp, "Paper Boats 17-24 = Harbour Lights 9-16 down 9 semitones, with exactly "
+    check(got == exp, "Millstream Boats 17-24 = Pierside Lamps 9-16 down 9 semitones, with exactly "
           "the README's changes")
     if got != exp:
         for g, e in zip(got, exp):
@@ -306,7 +306,7 @@ def main() -> int:
     same_written = [(r[1], r[3]) for r in sax_written if not r[6]]
     a_written = [(off, midi) for _, off, _, midi, *_ in a_rows]
     shared = len(set((x[1]) for x in same_written) & set(x[1] for x in a_written))
-    print(f"    (the sax's written notes use the very pitches of Harbour Lights' hook; "
+    print(f"    (the sax's written notes use the very pitches of Pierside Lamps' hook; "
           f"{shared} distinct pitches in common)")
     sax_other = [n for m in b_sax.getElementsByClass("Measure") if not 17 <= m.number <= 24
                  for n in m.recurse().notes]
@@ -322,15 +322,15 @@ def main() -> int:
         print(f"    {name}: {', '.join(where) if where else '-'}")
         if hits:
             found_in.append(name)
-    check(found_in == ["corpus/01-tinkers-lullaby.musicxml",
-                       "corpus/02-crossing-at-dunmere.musicxml",
-                       "harbour-lights.musicxml", "paper-boats.musicxml"],
+    check(sorted(found_in) == ["corpus/01-tinkers-lullaby.musicxml",
+                               "corpus/02-crossing-at-dunmere.musicxml",
+                               "millstream-boats.musicxml", "pierside-lamps.musicxml"],
           "the turn occurs in the two songs and in corpus pieces 01 and 02 only")
 
     print("\nLongest run of hook intervals shared with each other piece:")
     _, hook_ivs = intervals(a_rows)
     for name, s in sorted(scores.items()):
-        if name == "harbour-lights.musicxml":
+        if name == "pierside-lamps.musicxml":
             continue
         _, ivs = intervals(notes_of(s.parts[0], -1, 10_000))
         run = longest_common_run(hook_ivs, ivs)
@@ -344,7 +344,7 @@ def main() -> int:
         check(shared == {tuple(turn)}, f"{name}: the four notes it shares with the hook are "
               "the turn, and nothing else")
 
-    print("\nOutside the hook (Harbour Lights bars 0-8 and 17-24, Paper Boats 1-16 and 25-32):")
+    print("\nOutside the hook (Pierside Lamps bars 0-8 and 17-24, Millstream Boats 1-16 and 25-32):")
     a_free = [notes_of(a_voice, 0, 8), notes_of(a_voice, 17, 24)]
     b_free = [notes_of(b_voice, 1, 16), notes_of(b_voice, 25, 32)]
     b_hook_ivs = intervals(b_rows)[1]
@@ -353,9 +353,9 @@ def main() -> int:
         return max(longest_common_run(intervals(seg)[1], other) for seg in segments)
 
     check(longest(a_free, hook_ivs) <= 2 and longest(a_free, b_hook_ivs) <= 2,
-          "Harbour Lights outside bars 9-16 shares no four consecutive notes with either hook")
+          "Pierside Lamps outside bars 9-16 shares no four consecutive notes with either hook")
     check(longest(b_free, hook_ivs) <= 2 and longest(b_free, b_hook_ivs) <= 2,
-          "Paper Boats outside bars 17-24 shares no four consecutive notes with either hook")
+          "Millstream Boats outside bars 17-24 shares no four consecutive notes with either hook")
     run = max(longest(b_free, intervals(seg)[1]) for seg in a_free)
     check(run <= 2, f"outside the hook the two songs share no four consecutive notes, at any "
           f"transposition (longest shared run: {run} intervals)")
@@ -378,23 +378,23 @@ def main() -> int:
     major = [0, 2, 4, 5, 7, 9, 11]
     pa = profile(a_free, {(7 + x) % 12 for x in major})
     pb = profile(b_free, {(10 + x) % 12 for x in major})
-    print(f"    Harbour Lights: {pa}")
-    print(f"    Paper Boats:    {pb}")
+    print(f"    Pierside Lamps: {pa}")
+    print(f"    Millstream Boats:    {pb}")
     check((pa["intervals"], pa["repeated"], pa["leaps"], pa["steps"]) == (52, 18, 27, 7),
-          "Harbour Lights: of 52 intervals, 18 repeated notes, 27 leaps, 7 steps")
+          "Pierside Lamps: of 52 intervals, 18 repeated notes, 27 leaps, 7 steps")
     check((pb["intervals"], pb["repeated"], pb["steps"]) == (84, 0, 51),
-          "Paper Boats: of 84 intervals, 51 steps, no repeated note")
+          "Millstream Boats: of 84 intervals, 51 steps, no repeated note")
     check(pa["syncopated"] == 0 and pa["dotted_on_beat"] == 16,
-          "Harbour Lights: 16 dotted notes on the beat, no note held across a beat")
+          "Pierside Lamps: 16 dotted notes on the beat, no note held across a beat")
     check(pb["dotted_on_beat"] == 0 and pb["syncopated"] == 17,
-          "Paper Boats: no dotted note on the beat, 17 notes held across a beat")
+          "Millstream Boats: no dotted note on the beat, 17 notes held across a beat")
     check(pa["chromatic"] == [] and pb["chromatic"] == ["B3", "C#4", "E4", "F#3"],
-          "only Paper Boats has notes outside the key: F#3, C#4, B3, E4")
+          "only Millstream Boats has notes outside the key: F#3, C#4, B3, E4")
     b_all = [r[3] for r in notes_of(b_voice, 1, 32) if not r[6]]
-    check((min(b_all), max(b_all)) == (54, 70), "Paper Boats' voice runs F#3-Bb4")
+    check((min(b_all), max(b_all)) == (54, 70), "Millstream Boats' voice runs F#3-Bb4")
 
     print("\nMIDI files, read with mido (and parsed by music21):")
-    for slug, score in (("harbour-lights", a), ("paper-boats", b)):
+    for slug, score in (("pierside-lamps", a), ("millstream-boats", b)):
         f = path(f"{slug}.mid")
         result = midi_summary(f)
         check(result is not None, f"{slug}.mid: no overlapping notes of one pitch")

@@ -15,7 +15,7 @@ agree. Melodies are written one bar per line as `LABEL: token token ...` where a
     ^A4       a grace note (acciaccatura, no duration)
     r:q       a rest;  R = a whole-bar rest
 
-Lyrics are a stream of syllables; "--" joins the syllables of one word (as in LilyPond).
+Lyrics are a stream of words; "|" inside a word divides its syllables ("fer|ries").
 They go, in order, to every note that is not a rest, a grace note or the second half of a tie.
 Chord symbols are given per bar as `Symbol` or `Symbol@offset` (offset in quarter notes).
 """
@@ -132,20 +132,20 @@ def parse_melody(text: str, first_label: int) -> list[list[Note]]:
 
 
 def parse_lyrics(text: str) -> list[tuple[str, str]]:
-    words: list[list] = []  # [text, joined_to_previous]
-    join = False
-    for tok in text.split():
-        if tok == "--":
-            join = True
-            continue
-        words.append([tok, join])
-        join = False
+    """Syllables with their MusicXML <syllabic> kind; "|" divides a word into syllables."""
     out = []
-    for i, (syl, from_prev) in enumerate(words):
-        to_next = i + 1 < len(words) and words[i + 1][1]
-        kind = {(False, False): "single", (False, True): "begin", (True, True): "middle",
-                (True, False): "end"}[(from_prev, to_next)]
-        out.append((kind, syl))
+    for word in text.split():
+        parts = word.split("|")
+        for i, syl in enumerate(parts):
+            if len(parts) == 1:
+                kind = "single"
+            elif i == 0:
+                kind = "begin"
+            elif i == len(parts) - 1:
+                kind = "end"
+            else:
+                kind = "middle"
+            out.append((kind, syl))
     return out
 
 
@@ -307,7 +307,7 @@ class Piece:
 
 
 # ---------------------------------------------------------------- Work A -------------------
-# "Harbour Lights at Evening", Maren Holloway, 2024. G major, 4/4, quarter = 96.
+# "Pierside Lamps at Evening", Maren Holloway, 2024. G major, 4/4, quarter = 96.
 # Pickup bar 0, verse 1-8, the hook (chorus) 9-16, coda 17-24.
 #
 # Verse and coda are a ballad in plain major harmony (I, IV, V and one passing Am7): the
@@ -343,12 +343,12 @@ A_MELODY = """
 """
 
 A_LYRICS = """
-The fer -- ries are moored now, the wind drops, I wait by the wall where the nets hang,
-and ev -- ery win -- dow is burn -- ing a -- long the old shore.
-Shine on, har -- bour lights, the ev -- 'ning's come, and call the boats home
-through the grey sil -- ver wa -- ter we'll fol -- low you all the long way home.
-When I am far a -- way on the in -- land roads,
-I will keep them burn -- ing down at the wa -- ter's edge.
+The fer|ries are moored now, the wind drops, I wait by the wall where the nets hang,
+and ev|ery win|dow is burn|ing a|long the old shore.
+Burn on, pier|side lamps, the ev|'ning's come, and call the boats home
+through the grey sil|ver wa|ter we'll fol|low you all the long way home.
+When I am far a|way on the in|land roads,
+I will keep them burn|ing down at the wa|ter's edge.
 """
 
 A_CHORDS = [
@@ -358,7 +358,7 @@ A_CHORDS = [
 ]
 
 # ---------------------------------------------------------------- Work B -------------------
-# "Paper Boats", Tobias Wren, 2025. B-flat major, 4/4, quarter = 120. Tenor voice, written in
+# "Millstream Boats", Tobias Wren, 2025. B-flat major, 4/4, quarter = 120. Tenor voice, written in
 # the treble clef with an 8 below (pitches in the file are the sounding pitches, as MusicXML
 # does for that clef). Verse 1-16, the borrowed hook 17-24, coda 25-32.
 #
@@ -403,14 +403,14 @@ B_MELODY = """
 """
 
 B_LYRICS = """
-I tore a page from my fa -- ther's old book and I fold -- ed it in two,
-then tucked in the cor -- ners just like you said, and I set it on the stream.
-It went a -- round the mill -- pond, past the wil -- low and gone,
-and I ran a -- long be -- side as far as my legs go.
-Sail on, pa -- per boats, the ri -- ver's run -- ning to car -- ry us home,
-down the slow brown wa -- ter, fol -- low it round the bend and on to the sea.
-I hope it finds the shore, and some -- bo -- dy un -- folds it,
-and reads the lines I nev -- er could say a -- loud to you.
+I tore a page from my fa|ther's old book and I fold|ed it in two,
+then tucked in the cor|ners just like you said, and I set it on the stream.
+It went a|round the mill|pond, past the wil|low and gone,
+and I ran a|long be|side as far as my legs go.
+Sail on, mill|stream boats, the ri|ver's run|ning to car|ry us home,
+down the slow brown wa|ter, fol|low it round the bend and on to the sea.
+I hope it finds the shore, and some|bo|dy un|folds it,
+and reads the lines I nev|er could say a|loud to you.
 """
 
 B_CHORDS = [
@@ -449,7 +449,7 @@ C_CHORDS = ["Dm", "Dm", "C", "F", "Gm", "Dm", "C", "Dm",
 
 # ---------------------------------------------------------------- Corpus -------------------
 # Eight short invented melodies. Two of them (01 and 02) use the four-note turn "up a tone,
-# down a tone, down a tone" that also occurs in bar 10 of Harbour Lights (D5 E5 D5 C5);
+# down a tone, down a tone" that also occurs in bar 10 of Pierside Lamps (D5 E5 D5 C5);
 # none of them contains the hook itself.
 
 CORPUS = [
@@ -574,7 +574,7 @@ def build_pieces() -> tuple[list[Piece], list[Piece]]:
     # Work A
     a_bars = parse_melody(A_MELODY, 0)
     attach_lyrics(a_bars, A_LYRICS)
-    a = Piece(slug="harbour-lights", title="Harbour Lights at Evening",
+    a = Piece(slug="pierside-lamps", title="Pierside Lamps at Evening",
               composer="Maren Holloway", lyricist="Maren Holloway", year=2024,
               fifths=1, mode="major", beats=4, beat_type=4, tempo_qpm=Fr(96),
               metronome=("quarter", False, 96), pickup=Fr(1), n_bars=25, parts=[],
@@ -589,7 +589,7 @@ def build_pieces() -> tuple[list[Piece], list[Piece]]:
     # Work B
     b_bars = parse_melody(B_MELODY, 1)
     attach_lyrics(b_bars, B_LYRICS)
-    b = Piece(slug="paper-boats", title="Paper Boats", composer="Tobias Wren",
+    b = Piece(slug="millstream-boats", title="Millstream Boats", composer="Tobias Wren",
               lyricist="Tobias Wren", year=2025, fifths=-2, mode="major", beats=4,
               beat_type=4, tempo_qpm=Fr(120), metronome=("quarter", False, 120),
               pickup=Fr(0), n_bars=32, parts=[], midi_key="Bb")

@@ -7,7 +7,7 @@ Usage (from the repository root, after `cargo build --release`):
 
     .venv/bin/python scripts/check_exports_music21.py --collatio target/release/collatio
 
-It runs `collatio compare demo/harbour-lights.musicxml demo/paper-boats.musicxml --export DIR`
+It runs `collatio compare demo/pierside-lamps.musicxml demo/millstream-boats.musicxml --export DIR`
 into a temporary folder, parses every exported .musicxml with music21.converter.parse, and writes
 tests/golden/exports/<file>.music21.json: per part, the notes as [MIDI pitch, offset, duration]
 in quarter notes from the start of the part (tied notes merged with stripTies, grace notes left
@@ -25,7 +25,7 @@ import music21
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 GOLDEN = ROOT / "tests" / "golden" / "exports"
-DEMO = [ROOT / "demo" / "harbour-lights.musicxml", ROOT / "demo" / "paper-boats.musicxml"]
+DEMO = [ROOT / "demo" / "pierside-lamps.musicxml", ROOT / "demo" / "millstream-boats.musicxml"]
 
 
 def read(path):

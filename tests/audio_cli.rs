@@ -205,7 +205,7 @@ fn compare_a_recording_with_its_score() {
 
 /// A half-second clip of one note agrees with any score that sounds its pitch class
 /// somewhere; it must not be taken for a performance of the score (A4 = 440 Hz, ISO 16; the
-/// demo's Harbour Lights has A4s in its melody).
+/// demo's Pierside Lamps has A4s in its melody).
 #[test]
 fn a_clip_of_one_note_does_not_follow_a_score() {
     let dir = tempfile::tempdir().unwrap();
@@ -214,7 +214,7 @@ fn a_clip_of_one_note_does_not_follow_a_score() {
         "a4.wav",
         &wav(22_050, 1, &tone(440.0, 0.5, 22_050), None),
     );
-    let score = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("demo/harbour-lights.musicxml");
+    let score = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("demo/pierside-lamps.musicxml");
     let out = collatio(&["compare", &p, score.to_str().unwrap(), "--format", "json"]);
     let record: serde_json::Value = serde_json::from_slice(&out.stdout)
         .unwrap_or_else(|_| panic!("{}", String::from_utf8_lossy(&out.stderr)));

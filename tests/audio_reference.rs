@@ -352,7 +352,7 @@ fn a_tempo_hint_gives_the_legato_violin_its_quarter_notes() {
 #[test]
 fn beats_of_the_syncopated_demo_melodies() {
     let root = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
-    for name in ["harbour-lights", "paper-boats"] {
+    for name in ["pierside-lamps", "millstream-boats"] {
         let (reference, midi_bpm) = midi_quarter_beats(&root.join(format!("demo/{name}.mid")));
         let decoded = decode_file(
             &root.join(format!("demo/audio/{name}-melody.flac")),

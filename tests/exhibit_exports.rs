@@ -20,8 +20,8 @@ fn demo(name: &str) -> PathBuf {
 }
 
 fn pieces() -> (Piece, Piece) {
-    let a = read_file(&demo("harbour-lights.musicxml"), &ReadOptions::default()).unwrap();
-    let b = read_file(&demo("paper-boats.musicxml"), &ReadOptions::default()).unwrap();
+    let a = read_file(&demo("pierside-lamps.musicxml"), &ReadOptions::default()).unwrap();
+    let b = read_file(&demo("millstream-boats.musicxml"), &ReadOptions::default()).unwrap();
     (a, b)
 }
 

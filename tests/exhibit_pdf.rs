@@ -30,8 +30,8 @@ fn run(args: &[&str], dir: &Path) -> (i32, Vec<u8>, String) {
 }
 
 fn write_demo_exhibit(dir: &Path, extra: &[&str]) -> (i32, Vec<u8>, String) {
-    let a = demo("harbour-lights.musicxml");
-    let b = demo("paper-boats.musicxml");
+    let a = demo("pierside-lamps.musicxml");
+    let b = demo("millstream-boats.musicxml");
     let mut args = vec![
         "compare",
         a.to_str().unwrap(),
@@ -92,8 +92,8 @@ fn two_runs_give_identical_files() {
 #[test]
 fn json_file_is_the_printed_record() {
     let dir = tempfile::tempdir().unwrap();
-    let a = demo("harbour-lights.musicxml");
-    let b = demo("paper-boats.musicxml");
+    let a = demo("pierside-lamps.musicxml");
+    let b = demo("millstream-boats.musicxml");
     let (code, stdout, stderr) = run(
         &[
             "compare",
@@ -135,7 +135,7 @@ fn pdf_text_holds_bars_hashes_cautions_and_counsel_statement() {
     ] {
         assert!(text.contains(needle), "missing {needle:?}");
     }
-    for file in ["harbour-lights.musicxml", "paper-boats.musicxml"] {
+    for file in ["pierside-lamps.musicxml", "millstream-boats.musicxml"] {
         let hash = sha256_hex(&demo(file));
         assert!(text.contains(&hash), "missing hash of {file}");
     }
@@ -163,8 +163,8 @@ fn pdf_text_holds_bars_hashes_cautions_and_counsel_statement() {
 #[test]
 fn letter_paper_and_no_date() {
     let dir = tempfile::tempdir().unwrap();
-    let a = demo("harbour-lights.musicxml");
-    let b = demo("paper-boats.musicxml");
+    let a = demo("pierside-lamps.musicxml");
+    let b = demo("millstream-boats.musicxml");
     let (code, _, stderr) = run(
         &[
             "compare",
@@ -189,8 +189,8 @@ fn letter_paper_and_no_date() {
 #[test]
 fn source_date_epoch_gives_the_date() {
     let dir = tempfile::tempdir().unwrap();
-    let a = demo("harbour-lights.musicxml");
-    let b = demo("paper-boats.musicxml");
+    let a = demo("pierside-lamps.musicxml");
+    let b = demo("millstream-boats.musicxml");
     let out = Command::new(env!("CARGO_BIN_EXE_collatio"))
         .args([
             "compare",
@@ -213,8 +213,8 @@ fn outputs_never_overwrite_an_input() {
     let dir = tempfile::tempdir().unwrap();
     let a = dir.path().join("a.musicxml");
     let b = dir.path().join("b.musicxml");
-    std::fs::copy(demo("harbour-lights.musicxml"), &a).unwrap();
-    std::fs::copy(demo("paper-boats.musicxml"), &b).unwrap();
+    std::fs::copy(demo("pierside-lamps.musicxml"), &a).unwrap();
+    std::fs::copy(demo("millstream-boats.musicxml"), &b).unwrap();
     let before = std::fs::read(&a).unwrap();
     for flag in ["--pdf", "--json"] {
         let (code, _, stderr) = run(
@@ -243,8 +243,8 @@ fn outputs_never_overwrite_an_input() {
 #[test]
 fn bad_date_and_key_are_usage_errors() {
     let dir = tempfile::tempdir().unwrap();
-    let a = demo("harbour-lights.musicxml");
-    let b = demo("paper-boats.musicxml");
+    let a = demo("pierside-lamps.musicxml");
+    let b = demo("millstream-boats.musicxml");
     let (a, b) = (a.to_str().unwrap(), b.to_str().unwrap());
     let (code, _, stderr) = run(
         &["compare", a, b, "--pdf", "x.pdf", "--date", "1 June"],
@@ -264,8 +264,8 @@ fn bad_date_and_key_are_usage_errors() {
 fn piano_roll_and_other_keys_render() {
     use collatio::ingest::{read_file, ReadOptions};
     use collatio::report::exhibit::{ExhibitOptions, Outputs};
-    let a = read_file(&demo("harbour-lights.musicxml"), &ReadOptions::default()).unwrap();
-    let b = read_file(&demo("paper-boats.musicxml"), &ReadOptions::default()).unwrap();
+    let a = read_file(&demo("pierside-lamps.musicxml"), &ReadOptions::default()).unwrap();
+    let b = read_file(&demo("millstream-boats.musicxml"), &ReadOptions::default()).unwrap();
     let settings = collatio::findings::CompareSettings {
         harmony: None,
         ..Default::default()

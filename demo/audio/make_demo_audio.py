@@ -17,8 +17,8 @@ ROOT = pathlib.Path(__file__).resolve().parents[2]
 SOUNDFONT = "/usr/share/sounds/sf2/FluidR3_GM.sf2"
 # (source MIDI, output, General MIDI program for the melody: 65 alto sax, 73 flute, 0-based)
 RENDERS = [
-    ("demo/harbour-lights.mid", "demo/audio/harbour-lights-melody.flac", 73),
-    ("demo/paper-boats.mid", "demo/audio/paper-boats-melody.flac", 65),
+    ("demo/pierside-lamps.mid", "demo/audio/pierside-lamps-melody.flac", 73),
+    ("demo/millstream-boats.mid", "demo/audio/millstream-boats-melody.flac", 65),
 ]
 
 

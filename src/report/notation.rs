@@ -210,7 +210,7 @@ pub enum Clef {
 /// One work's side of a passage as notation.
 #[derive(Debug, Clone, PartialEq)]
 pub struct StaffView {
-    /// Label of the work (e.g. `A: Harbour Lights at Evening`).
+    /// Label of the work (e.g. `A: Pierside Lamps at Evening`).
     pub label: String,
     /// Ticks per quarter note.
     pub resolution: i64,
