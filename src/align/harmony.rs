@@ -71,9 +71,9 @@ pub struct HarmonyParams {
     /// recurrent, whatever their rank. Default 0.7.
     pub min_similarity: f32,
     /// Penalty for opening a gap, γo. Default 5.
-    pub gap_onset: f32,
+    pub gap_open: f32,
     /// Penalty for extending a gap, γe. Default 2.
-    pub gap_extension: f32,
+    pub gap_extend: f32,
     /// Shortest passage reported, in seconds of A. Default 6.
     pub min_seconds: f64,
     /// Largest empirical p-value reported. Default 0.05.
@@ -103,8 +103,8 @@ impl Default for HarmonyParams {
             delay: 1,
             neighbours: 0.07,
             min_similarity: 0.7,
-            gap_onset: 5.0,
-            gap_extension: 2.0,
+            gap_open: 5.0,
+            gap_extend: 2.0,
             min_seconds: 6.0,
             max_p: 0.05,
             max_passages: 10,
@@ -483,7 +483,7 @@ fn qmax_kernel(
     params: &HarmonyParams,
     mut values: Option<&mut Vec<f32>>,
 ) -> Option<((usize, usize), f32)> {
-    let (go, ge) = (params.gap_onset, params.gap_extension);
+    let (go, ge) = (params.gap_open, params.gap_extend);
     let width = cols + 2;
     let mut q = [vec![0f32; width], vec![0f32; width], vec![0f32; width]];
     // Gap penalty of leaving each cell of the two previous rows (γo after a recurrence).
@@ -564,9 +564,9 @@ fn traceback(
             let expected = if is_recurrent {
                 before + 1.0
             } else if recurrent(plot, blocked, pi, pj) {
-                before - params.gap_onset
+                before - params.gap_open
             } else {
-                before - params.gap_extension
+                before - params.gap_extend
             };
             if before > 0.0 && (expected - here).abs() < 1e-4 {
                 next = Some((pi, pj));

@@ -23,8 +23,8 @@ pub struct InspectRecord {
     pub composer: Option<String>,
     /// Pitches are at concert pitch (always true; transposing parts are converted).
     pub concert_pitch: bool,
-    /// Repeats unfolded into performance order.
-    pub repeats_unfolded: bool,
+    /// Read in performance order (repeats and endings played out).
+    pub performance_order: bool,
     /// Every part or track.
     pub parts: Vec<PartSummary>,
     /// What was chosen as the melody and why.
@@ -254,7 +254,7 @@ pub fn record(piece: &Piece) -> InspectRecord {
         title: piece.title.clone(),
         composer: piece.composer.clone(),
         concert_pitch: true,
-        repeats_unfolded: piece.repeats_unfolded,
+        performance_order: piece.repeats_unfolded,
         parts: piece
             .parts
             .iter()
@@ -471,8 +471,8 @@ pub fn render_text(piece: &Piece) -> String {
             } else {
                 ""
             },
-            if r.repeats_unfolded {
-                ", repeats unfolded"
+            if r.performance_order {
+                ", in performance order"
             } else {
                 ", written order"
             }

@@ -183,7 +183,7 @@ pub struct AlignmentArgs {
     /// Points for other rhythms.
     #[arg(long, default_value_t = -3, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub rhythm_mismatch: i32,
-    /// Points for the same metric level (downbeat, strong, weak, off-beat).
+    /// Points for the same metric level (downbeat, half-bar beat, other beat, between beats).
     #[arg(
         long,
         default_value_t = 1,

@@ -74,9 +74,9 @@ pub struct InspectArgs {
     #[command(flatten)]
     pub selection: SelectionArgs,
 
-    /// Unfold repeats and first/second endings into performance order.
+    /// Read in performance order: repeats played out, first and second endings taken in turn.
     #[arg(long, help_heading = "INPUT")]
-    pub unfold_repeats: bool,
+    pub performance_order: bool,
 
     #[command(flatten)]
     pub audio: AudioArgs,
@@ -310,7 +310,7 @@ pub struct LimitArgs {
         help_heading = "LIMITS"
     )]
     pub max_notes: u64,
-    /// Most bars in one file (after unfolding repeats).
+    /// Most bars in one file (in performance order when that is asked for).
     #[arg(
         long,
         default_value_t = 100_000,
@@ -354,7 +354,7 @@ impl InspectArgs {
                 bars: s.bars.clone(),
                 include_percussion: s.include_percussion,
             },
-            unfold_repeats: self.unfold_repeats,
+            unfold_repeats: self.performance_order,
             audio: self.audio.options()?,
         })
     }

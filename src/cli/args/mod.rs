@@ -29,7 +29,7 @@ Exit codes:
 #[command(
     name = "collatio",
     version,
-    about = "Compare pieces of music for shared melodic material and document the evidence",
+    about = "Compare scores, MIDI files and recordings for shared melodic material and document the evidence",
     long_about = "collatio reads MusicXML scores, MIDI files and audio recordings (WAV, FLAC, \
                   MP3, Ogg Vorbis, AAC/M4A, AIFF) into one note-and-bar timeline so that \
                   melodies can be compared whatever their key, tempo or notation, and writes \
@@ -51,10 +51,10 @@ pub enum Command {
                       labels as printed, beats, concert pitch names (C4 = middle C) and \
                       durations in beats and seconds.",
         after_long_help = "Examples:
-  collatio inspect demo/harbour-lights.musicxml
+  collatio inspect demo/pierside-lamps.musicxml
   collatio inspect song.mid --track 2 --channel 1 --bars 9-24
   collatio inspect score.mxl --part P2 --voice 1 --format json > melody.json
-  collatio inspect score.musicxml --unfold-repeats
+  collatio inspect score.musicxml --performance-order
   collatio inspect recording.flac --meter 3/4 --downbeat 0.42 --export-midi melody.mid
 
 Exit codes:
@@ -76,11 +76,11 @@ Exit codes:
 pairs: part=ID|NAME|N, track=N, channel=N, staff=N, voice=V, bars=FIRST-LAST, percussion=yes.
 
 Examples:
-  collatio compare demo/harbour-lights.musicxml demo/paper-boats.musicxml
+  collatio compare demo/pierside-lamps.musicxml demo/millstream-boats.musicxml
   collatio compare a.mid b.musicxml --select-a track=2 --select-b part=P1,voice=1
   collatio compare a.mxl b.mxl --select-b bars=17-40 --format json > findings.json
-  collatio compare a.musicxml b.mid --pdf exhibit.pdf --json findings.json --export passages/ \
-      --case-label 'Holloway v. Wren' --date 2025-06-01 --paper letter
+  collatio compare a.musicxml b.mid --pdf exhibit.pdf --json findings.json --export passages/ \\
+      --case-label 'Holloway v. Wren (invented demo case)' --date 2025-06-01 --paper letter
 
 Exit codes:
   0  success
@@ -110,9 +110,10 @@ pub struct CompareArgs {
     /// Melody of B, same form as --select-a.
     #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
     pub select_b: Option<SelectionSpec>,
-    /// Unfold repeats and endings in both works.
+    /// Read both works in performance order: repeats played out, first and second endings
+    /// taken in turn.
     #[arg(long, help_heading = "INPUT")]
-    pub unfold_repeats: bool,
+    pub performance_order: bool,
 
     #[command(flatten)]
     pub alignment: AlignmentArgs,
@@ -154,7 +155,7 @@ impl CompareArgs {
         let make = |spec: &Option<SelectionSpec>| ReadOptions {
             limits: self.limits.limits(),
             choice: spec.clone().unwrap_or_default().0,
-            unfold_repeats: self.unfold_repeats,
+            unfold_repeats: self.performance_order,
             audio: audio.clone(),
         };
         Ok((make(&self.select_a), make(&self.select_b)))

@@ -44,8 +44,8 @@ pub struct ExhibitContext {
     pub any_corpus: bool,
     /// Any input from audio (estimated bars).
     pub any_audio: bool,
-    /// Fingerprint of inputs and options (SHA-256, hex).
-    pub fingerprint: String,
+    /// Document digest: SHA-256 of the inputs and options (hex).
+    pub digest: String,
     /// What the chance figures rest on, in sentences (empty when they were not computed).
     pub chance: String,
     /// The caution that goes with the null used (empty when none).
@@ -94,7 +94,7 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         any_significance: r.passages.iter().any(|p| p.significance.is_some()),
         any_corpus: r.passages.iter().any(|p| p.commonness.is_some()),
         any_audio: ex.a.bars.iter().chain(&ex.b.bars).any(|b| b.estimated),
-        fingerprint: ex.fingerprint(),
+        digest: ex.digest(),
         chance: r.chance.as_ref().map(chance_words).unwrap_or_default(),
         chance_caution: r.chance.as_ref().map(chance_caution).unwrap_or_default(),
         harmony: harmony_context(r.harmony.as_ref()),

@@ -141,8 +141,8 @@ pub fn harmony_context(evidence: Option<&HarmonicEvidence>) -> Option<HarmonyCon
             p.delay,
             trim_number(p.neighbours, 3),
             trim_number(f64::from(p.min_similarity), 2),
-            trim_number(f64::from(p.gap_onset), 2),
-            trim_number(f64::from(p.gap_extension), 2),
+            trim_number(f64::from(p.gap_open), 2),
+            trim_number(f64::from(p.gap_extend), 2),
             p.block,
             p.seed
         ),

@@ -10,10 +10,10 @@
 //! date, every parameter); summary (table of passages, strongest first, and what was and was not
 //! found); the dot plot; one section per passage (facts, the notation of both works in a common
 //! key, the differences); what was compared; method and sources; limitations and cautions; the
-//! closing statement.
+//! use and limits of the document.
 //!
 //! Determinism: no clock is read; the document identifier in the trailer is derived from
-//! [`Exhibit::fingerprint`]; the information dictionary carries a creation date only when a date
+//! [`Exhibit::digest`]; the information dictionary carries a creation date only when a date
 //! was given (midnight UTC of that date).
 
 pub mod dotplot;
@@ -40,7 +40,7 @@ pub const TEMPLATES: [(&str, &str); 10] = [
         "limitations",
         include_str!("../../../templates/limitations.tera"),
     ),
-    ("closing", include_str!("../../../templates/closing.tera")),
+    ("use-and-limits", include_str!("../../../templates/use-and-limits.tera")),
     ("running", include_str!("../../../templates/running.tera")),
 ];
 
@@ -133,7 +133,7 @@ pub fn render(ex: &Exhibit<'_>) -> Result<(Vec<u8>, usize), ExhibitError> {
         ("compared", true),
         ("method", true),
         ("limitations", true),
-        ("closing", false),
+        ("use-and-limits", false),
     ] {
         if fresh_page {
             flow.new_page();
@@ -353,8 +353,8 @@ fn save(
     }
     let info_id = lo.add_object(lopdf::Object::Dictionary(info));
     lo.trailer.set("Info", lopdf::Object::Reference(info_id));
-    let fingerprint = ex.fingerprint();
-    let id: Vec<u8> = fingerprint.as_bytes().iter().take(32).copied().collect();
+    let digest = ex.digest();
+    let id: Vec<u8> = digest.as_bytes().iter().take(32).copied().collect();
     lo.trailer.set(
         "ID",
         lopdf::Object::Array(vec![
