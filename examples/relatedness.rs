@@ -19,7 +19,7 @@
 mod common;
 
 use collatio::align::AlignParams;
-use collatio::corpus::{CorpusIndex, MelodyEntry};
+use collatio::corpus::{CorpusIndex, IndexSource, MelodyEntry};
 use collatio::findings::Findings;
 use collatio::pipeline::{search, CorpusRef, SearchSettings};
 use collatio::timeline::Piece;
@@ -500,6 +500,8 @@ fn main() {
             ..Default::default()
         };
         let start = std::time::Instant::now();
+        // The pool has no index file; its identity is built from empty bytes.
+        let source = IndexSource::new("pool", &[], &index);
         let aps: Vec<f64> = members
             .iter()
             .map(|&q| {
@@ -512,7 +514,7 @@ fn main() {
                     all[q].piece.clone(),
                     CorpusRef {
                         index: &index,
-                        path: "pool",
+                        source: &source,
                     },
                     &search_settings,
                 );

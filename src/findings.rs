@@ -143,10 +143,8 @@ pub struct Hit {
 pub struct SearchFindings {
     /// The query as read.
     pub query: Piece,
-    /// The index file as given.
-    pub corpus: String,
-    /// Melodies in the corpus.
-    pub corpus_melodies: usize,
+    /// The index file searched: path, SHA-256, build settings and melodies.
+    pub corpus: crate::corpus::IndexSource,
     /// Alignment settings used.
     pub align: AlignParams,
     /// What the hits' chance figures rest on, when computed.

@@ -15,8 +15,8 @@
 //! use collatio::ingest::{read_file, ReadOptions};
 //! # fn demo() -> Result<(), Box<dyn std::error::Error>> {
 //! let options = ReadOptions::default();
-//! let a = read_file("demo/harbour-lights.musicxml".as_ref(), &options)?;
-//! let b = read_file("demo/paper-boats.musicxml".as_ref(), &options)?;
+//! let a = read_file("demo/pierside-lamps.musicxml".as_ref(), &options)?;
+//! let b = read_file("demo/millstream-boats.musicxml".as_ref(), &options)?;
 //! let findings = collatio::pipeline::compare_works(a, b, &CompareSettings::default(), None);
 //! println!("{} shared passages", findings.passages.len());
 //! # Ok(()) }
@@ -30,20 +30,21 @@ use crate::compare::harmony::harmonic_evidence;
 use crate::compare::recurrence::interval_recurrences;
 use crate::compare::sync::{follow_score, SyncSummary};
 use crate::compare::{compare, Relatedness, Side};
-use crate::corpus::CorpusIndex;
+use crate::corpus::{CorpusIndex, IndexSource};
 use crate::features::Sequence;
 use crate::findings::{CompareSettings, Evidence, Finding, Findings, Hit, SearchFindings};
 use crate::stats::chance::{chance_model, ChanceParams, NullChoice};
 use crate::timeline::Piece;
 use rayon::prelude::*;
 
-/// A corpus index consulted by a comparison or a search, with the path it was read from.
+/// A corpus index consulted by a comparison or a search, with the identity of the file it was
+/// read from.
 #[derive(Debug, Clone, Copy)]
 pub struct CorpusRef<'a> {
     /// The index.
     pub index: &'a CorpusIndex,
-    /// The index file as given, for the report.
-    pub path: &'a str,
+    /// The index file: path, SHA-256 and build settings, for the record.
+    pub source: &'a IndexSource,
 }
 
 /// Settings of a search.
@@ -140,7 +141,7 @@ pub fn compare_works(
                 &seq_a,
                 &seq_b,
                 c.index,
-                c.path,
+                c.source,
                 &settings.align,
             );
             (Some(summary), each.into_iter().map(Some).collect())
@@ -280,8 +281,7 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
     hits.truncate(settings.top);
     SearchFindings {
         query,
-        corpus: corpus.path.to_string(),
-        corpus_melodies: corpus.index.melodies.len(),
+        corpus: corpus.source.clone(),
         align: settings.align.clone(),
         chance: chance.map(|c| c.summary),
         hits,

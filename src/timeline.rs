@@ -482,6 +482,45 @@ pub struct Piece {
     /// The harmony layer measured from a recording (`None` for scores and MIDI files, whose
     /// chroma [`crate::features::chroma::chroma_of`] derives from all their parts).
     pub chroma: Option<ChromaLayer>,
+    /// How a recording was turned into notes (`None` for scores and MIDI files).
+    pub transcription: Option<Transcription>,
+}
+
+/// How a recording was turned into notes: every setting that changes the result, and what was
+/// estimated from the sound. Recorded in every output, so that a reader can repeat the reading.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Transcription {
+    /// Frequency of A4 (MIDI 69) that names the pitches, Hz (`--a4`; 440 by ISO 16).
+    pub a4_hz: f64,
+    /// Lowest melody pitch searched, Hz (`--fmin`).
+    pub fmin_hz: f64,
+    /// Highest melody pitch searched, Hz (`--fmax`).
+    pub fmax_hz: f64,
+    /// Start of the range analysed, seconds of the file (`--from`; `None`: the beginning).
+    pub from_seconds: Option<f64>,
+    /// End of the range analysed, seconds of the file (`--to`; `None`: the end).
+    pub to_seconds: Option<f64>,
+    /// Longest audio analysed, seconds (`--max-audio-seconds`).
+    pub max_seconds: f64,
+    /// Expected tempo given, beats per minute (`--tempo`; `None`: not given).
+    pub tempo_hint_bpm: Option<f64>,
+    /// Meter given (`--meter`; `None`: 4/4 assumed).
+    pub meter: Option<(u32, u32)>,
+    /// Downbeat given, seconds of the file (`--downbeat`; `None`: estimated).
+    pub downbeat_seconds: Option<f64>,
+    /// Melody tracker asked for (`--audio-melody`: `auto`, `solo` or `mix`).
+    pub melody_requested: String,
+    /// Melody tracker used: `solo` (pYIN, one line) or `mix` (predominant melody).
+    pub melody_used: String,
+    /// Sample rate of the analysis, Hz.
+    pub analysis_rate_hz: u32,
+    /// Seconds analysed.
+    pub analysed_seconds: f64,
+    /// Estimated tuning: the recording's deviation from the A4 above, in semitones
+    /// (−0.5 ..< 0.5).
+    pub estimated_tuning_semitones: f64,
+    /// Tracked tempo, beats per minute (0 when no steady beat was found).
+    pub estimated_tempo_bpm: f64,
 }
 
 /// Where a chroma profile comes from.

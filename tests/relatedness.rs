@@ -15,7 +15,7 @@
 
 mod common;
 
-use collatio::corpus::{CorpusIndex, MelodyEntry};
+use collatio::corpus::{CorpusIndex, IndexSource, MelodyEntry};
 use collatio::findings::CompareSettings;
 use collatio::pipeline::{compare_works, search, CorpusRef, SearchSettings};
 use collatio::stats::chance::{ChanceParams, NullChoice};
@@ -165,6 +165,8 @@ fn relatedness_tells_tune_families_from_unrelated_tunes() {
             },
             ..Default::default()
         };
+        // The index has no file; its identity is built from empty bytes.
+        let source = IndexSource::new("subset", &[], &index);
         let aps: Vec<f64> = members
             .par_iter()
             .map(|&q| {
@@ -175,7 +177,7 @@ fn relatedness_tells_tune_families_from_unrelated_tunes() {
                     .count();
                 let corpus = CorpusRef {
                     index: &index,
-                    path: "subset",
+                    source: &source,
                 };
                 let found = search(all[q].piece.clone(), corpus, &search_settings);
                 let (mut hits, mut sum, mut rank) = (0usize, 0.0, 0usize);

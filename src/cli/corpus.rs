@@ -2,17 +2,20 @@
 
 use super::args::{BuildArgs, OutputFormat, SearchArgs};
 use anyhow::{Context, Result};
-use collatio::corpus::{build_from_dir, corpus_files, CorpusIndex};
+use collatio::corpus::{build_from_dir, corpus_files, CorpusIndex, IndexSource};
 use collatio::ingest::{read_file, ReadOptions};
 use collatio::pipeline::{search as search_corpus, CorpusRef, SearchSettings};
 use collatio::report::output::{same_file, write_atomic};
 use std::io::IsTerminal;
 use std::path::Path;
 
-/// Reads an index file with the file named in errors.
-pub fn load_index(path: &Path) -> Result<CorpusIndex> {
+/// Reads an index file with the file named in errors, and the identity of the file as read.
+pub fn load_index(path: &Path) -> Result<(CorpusIndex, IndexSource)> {
     let bytes = std::fs::read(path).with_context(|| format!("{}: cannot read", path.display()))?;
-    CorpusIndex::from_bytes(&bytes).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))
+    let index =
+        CorpusIndex::from_bytes(&bytes).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))?;
+    let source = IndexSource::new(&path.display().to_string(), &bytes, &index);
+    Ok((index, source))
 }
 
 /// Runs `corpus build`.
@@ -71,7 +74,7 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
 
 /// Runs `search`.
 pub fn search(args: &SearchArgs) -> Result<i32> {
-    let index = load_index(&args.corpus)?;
+    let (index, source) = load_index(&args.corpus)?;
     let options = ReadOptions {
         limits: args.limits.limits(),
         choice: args.select.clone().unwrap_or_default().0,
@@ -92,10 +95,9 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
             ..Default::default()
         },
     };
-    let path = args.corpus.display().to_string();
     let corpus = CorpusRef {
         index: &index,
-        path: &path,
+        source: &source,
     };
     let found = search_corpus(query, corpus, &settings);
     let text = match args.format {

@@ -91,15 +91,9 @@ fn compare(args: CompareArgs) -> Result<i32> {
         Some(path) => Some(corpus::load_index(path)?),
         None => None,
     };
-    let index_path = args
-        .statistics
-        .corpus
-        .as_ref()
-        .map(|p| p.display().to_string());
     let corpus = index
         .as_ref()
-        .zip(index_path.as_deref())
-        .map(|(index, path)| CorpusRef { index, path });
+        .map(|(index, source)| CorpusRef { index, source });
     let findings = compare_works(a, b, &settings, corpus);
     if let Some((options, outputs)) = &exhibit {
         let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;

@@ -3,6 +3,7 @@
 //! Pendzich 2009).
 
 use super::index::{figures, tokens, CorpusIndex};
+use super::source::IndexSource;
 use crate::align::{best_score, AlignParams};
 use crate::compare::Passage;
 use crate::features::{SeqNote, Sequence};
@@ -11,12 +12,12 @@ use serde::Serialize;
 /// The reference corpus a comparison was weighed against.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CorpusSummary {
-    /// Index file as given.
-    pub path: String,
-    /// Melodies in the corpus.
-    pub melodies: usize,
-    /// Corpus-weighted similarity of the two melodies in [0, 1]: shared figures weighted by
-    /// their rarity in the corpus (after Müllensiefen & Pendzich 2009; `docs/statistics.md`).
+    /// The index file: path, SHA-256, size, format and figure length, melodies.
+    #[serde(flatten)]
+    pub source: IndexSource,
+    /// Corpus-weighted similarity of the two melodies in [0, 1], rounded to 4 decimals: shared
+    /// figures weighted by their rarity in the corpus (after Müllensiefen & Pendzich 2009;
+    /// `docs/statistics.md`).
     pub weighted_similarity: f64,
 }
 
@@ -120,7 +121,7 @@ pub fn assess(
     a: &Sequence,
     b: &Sequence,
     index: &CorpusIndex,
-    index_path: &str,
+    source: &IndexSource,
     params: &AlignParams,
 ) -> (CorpusSummary, Vec<Commonness>) {
     let commonness = passages
@@ -138,9 +139,8 @@ pub fn assess(
         })
         .collect();
     let summary = CorpusSummary {
-        path: index_path.to_string(),
-        melodies: index.melodies.len(),
-        weighted_similarity: index.weighted_similarity(a, b),
+        source: source.clone(),
+        weighted_similarity: (index.weighted_similarity(a, b) * 1e4).round() / 1e4,
     };
     (summary, commonness)
 }

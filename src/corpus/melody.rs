@@ -189,6 +189,7 @@ impl MelodyEntry {
             selection: Selection::whole_part(0, format!("melody {} of the corpus", self.part)),
             warnings: Vec::new(),
             chroma: None,
+            transcription: None,
             unsure_spans: Vec::new(),
         }
     }

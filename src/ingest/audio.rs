@@ -21,7 +21,9 @@
 use super::{Limits, Problem, RawBar, RawPiece};
 use crate::audio::decode::{self, DecodeOptions, Decoded};
 use crate::audio::{self, Analysis, AnalysisOptions, AudioError};
-use crate::timeline::{ChromaLayer, Format, Note, Part, TempoChange, TimeSignature};
+use crate::timeline::{
+    ChromaLayer, Format, Note, Part, TempoChange, TimeSignature, Transcription,
+};
 use serde::Serialize;
 use std::path::Path;
 
@@ -388,12 +390,16 @@ fn build(
         (a, None) if a > 0.0 => format!("{a:.3} s to the end"),
         _ => "the whole recording".to_string(),
     };
+    // "FLAC" rather than "FLAC in FLAC" when the codec names its own container.
+    let codec = if decoded.codec == container_name(format) {
+        decoded.codec.clone()
+    } else {
+        format!("{} in {}", decoded.codec, container_name(format))
+    };
     let detail = format!(
-        "{} in {}, {} Hz, {} channel{}, {:.3} s; analysed {range} ({:.3} s) at {} Hz; tuning \
+        "{codec}, {} Hz, {} channel{}, {:.3} s; analysed {range} ({:.3} s) at {} Hz; tuning \
          {:+.0} cents; {}; meter {numerator}/{denominator} ({}); \
          downbeat {}; bars estimated from the beats; {} notes transcribed ({}){}",
-        decoded.codec,
-        container_name(format),
         decoded.source_rate,
         decoded.channels,
         if decoded.channels == 1 { "" } else { "s" },
@@ -448,7 +454,39 @@ fn build(
             },
         )),
         unsure_spans: analysis.unsure.iter().map(|&(a, b)| [a, b]).collect(),
+        transcription: Some(transcription(decoded, analysis, options)),
     })
+}
+
+/// The settings and estimates of one reading of a recording, for the record.
+fn transcription(
+    decoded: &Decoded,
+    analysis: &Analysis,
+    options: &AudioReadOptions,
+) -> Transcription {
+    let a = &options.analysis;
+    Transcription {
+        a4_hz: a.reference_hz,
+        fmin_hz: a.pitch.fmin,
+        fmax_hz: a.pitch.fmax,
+        from_seconds: options.decode.from,
+        to_seconds: options.decode.to,
+        max_seconds: options.decode.max_seconds,
+        tempo_hint_bpm: a.beats.tempo_hint,
+        meter: options.meter,
+        downbeat_seconds: options.downbeat,
+        melody_requested: match a.melody_source {
+            crate::audio::MelodySource::Auto => "auto",
+            crate::audio::MelodySource::Solo => "solo",
+            crate::audio::MelodySource::Mix => "mix",
+        }
+        .to_string(),
+        melody_used: analysis.melody_source.to_string(),
+        analysis_rate_hz: decoded.sample_rate,
+        analysed_seconds: decoded.seconds(),
+        estimated_tuning_semitones: analysis.chroma.tuning,
+        estimated_tempo_bpm: analysis.beats.tempo_bpm,
+    }
 }
 
 /// The unsure spans of a transcription in words, e.g. `; unsure over 3 spans (4.2 s)`.

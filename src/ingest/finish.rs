@@ -104,6 +104,7 @@ pub(crate) fn finish(
         selection: Selection::whole_part(0, String::new()),
         warnings: raw.warnings,
         chroma: raw.chroma,
+        transcription: raw.transcription,
         unsure_spans: raw.unsure_spans,
     })
 }

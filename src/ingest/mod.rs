@@ -274,6 +274,7 @@ pub(crate) struct RawPiece {
     pub warnings: Vec<String>,
     /// The measured harmony layer (audio only).
     pub chroma: Option<crate::timeline::ChromaLayer>,
+    pub transcription: Option<crate::timeline::Transcription>,
     /// Where the melody extractor was unsure, seconds (audio only).
     pub unsure_spans: Vec<[f64; 2]>,
 }

@@ -32,6 +32,9 @@ pub struct WorkRecord {
     pub unmatched_notes: usize,
     /// Warnings met while reading.
     pub warnings: Vec<String>,
+    /// How a recording was turned into notes: settings and estimates (`null` for scores and
+    /// MIDI files).
+    pub transcription: Option<crate::timeline::Transcription>,
 }
 
 /// The JSON record of `collatio compare`.
@@ -75,6 +78,7 @@ fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
         notes,
         unmatched_notes: unmatched,
         warnings: piece.warnings.clone(),
+        transcription: piece.transcription.clone(),
     }
 }
 

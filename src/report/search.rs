@@ -16,10 +16,8 @@ pub struct SearchRecord<'a> {
     pub schema_version: u32,
     /// The query file.
     pub query: &'a crate::timeline::Provenance,
-    /// The corpus index used.
-    pub corpus: &'a str,
-    /// Melodies in the corpus.
-    pub corpus_melodies: usize,
+    /// The corpus index used: path, SHA-256, size, format, figure length and melodies.
+    pub corpus: &'a crate::corpus::IndexSource,
     /// What the hits' chance figures rest on.
     pub chance: Option<&'a crate::stats::chance::ChanceSummary>,
     /// Best first.
@@ -34,7 +32,6 @@ pub fn record(found: &SearchFindings) -> SearchRecord<'_> {
         schema_version: SEARCH_SCHEMA_VERSION,
         query: &found.query.provenance,
         corpus: &found.corpus,
-        corpus_melodies: found.corpus_melodies,
         chance: found.chance.as_ref(),
         hits: &found.hits,
         cautions: super::cautions::SHORT.to_vec(),
@@ -44,12 +41,13 @@ pub fn record(found: &SearchFindings) -> SearchRecord<'_> {
 /// The human table.
 pub fn render_text(found: &SearchFindings) -> String {
     let mut out = format!(
-        "query   {}\ncorpus  {} ({} melodies)\n\n",
-        found.query.provenance.path, found.corpus, found.corpus_melodies
+        "query   {}\ncorpus  {}\n\n",
+        found.query.provenance.path,
+        found.corpus.line()
     );
     if found.hits.is_empty() {
         out.push_str("No melody of the corpus shares a passage with the query.\n");
-        out.push_str(&format!("{}\n", absence_caution(found.corpus_melodies)));
+        out.push_str(&format!("{}\n", absence_caution(found.corpus.melodies)));
         out.push_str(&short_text());
         return out;
     }
@@ -90,7 +88,7 @@ pub fn render_text(found: &SearchFindings) -> String {
             chance_words(chance)
         ));
     }
-    out.push_str(&format!(" {}\n", absence_caution(found.corpus_melodies)));
+    out.push_str(&format!(" {}\n", absence_caution(found.corpus.melodies)));
     out.push_str(&short_text());
     out
 }

@@ -63,7 +63,7 @@ impl<'a> Exhibit<'a> {
     }
 
     /// A digest of everything the output depends on, lower-case hex (SHA-256).
-    pub fn fingerprint(&self) -> String {
+    pub fn digest(&self) -> String {
         use sha2::{Digest, Sha256};
         let mut h = Sha256::new();
         h.update(self.a.provenance.sha256.as_bytes());
@@ -88,6 +88,21 @@ impl<'a> Exhibit<'a> {
         }
         h.update(self.a.selection.reason.as_bytes());
         h.update(self.b.selection.reason.as_bytes());
+        // How recordings were read, and the corpus consulted, shape the findings too.
+        for piece in [self.a, self.b] {
+            h.update(
+                serde_json::to_string(&piece.transcription)
+                    .unwrap_or_default()
+                    .as_bytes(),
+            );
+            h.update([0u8]);
+        }
+        h.update(
+            serde_json::to_string(&self.findings.corpus)
+                .unwrap_or_default()
+                .as_bytes(),
+        );
+        h.update([0u8]);
         // The statistics, harmony and score-following settings shape the document as well.
         let r = self.findings;
         for settings in [

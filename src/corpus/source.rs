@@ -1,0 +1,50 @@
+//! The identity of an index file as read, for the record of every output that consulted it.
+
+use super::index::{CorpusIndex, VERSION};
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// An index file as read: where it came from, its hash and how it was built, so that a reader
+/// of a report can tell which corpus gave its figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct IndexSource {
+    /// Path as given by the user.
+    pub path: String,
+    /// SHA-256 of the file's bytes, lower-case hex.
+    pub sha256: String,
+    /// Size of the file in bytes.
+    pub bytes: u64,
+    /// Index format version.
+    pub format_version: u32,
+    /// Intervals per interval-and-rhythm figure (the index's n-gram length).
+    pub figure_length: usize,
+    /// Melodies in the corpus.
+    pub melodies: usize,
+}
+
+impl IndexSource {
+    /// The identity of `index`, read from the file `path` whose bytes were `file`.
+    pub fn new(path: &str, file: &[u8], index: &CorpusIndex) -> IndexSource {
+        IndexSource {
+            path: path.to_string(),
+            sha256: Sha256::digest(file)
+                .iter()
+                .map(|b| format!("{b:02x}"))
+                .collect(),
+            bytes: file.len() as u64,
+            format_version: VERSION,
+            figure_length: index.ngram,
+            melodies: index.melodies.len(),
+        }
+    }
+
+    /// One line for a text report: path, melodies and the start of the hash.
+    pub fn line(&self) -> String {
+        format!(
+            "{} ({} melodies; index SHA-256 {})",
+            self.path,
+            self.melodies,
+            &self.sha256[..self.sha256.len().min(16)]
+        )
+    }
+}
