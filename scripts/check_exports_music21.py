@@ -11,7 +11,9 @@ It runs `collatio compare demo/pierside-lamps.musicxml demo/millstream-boats.mus
 into a temporary folder, parses every exported .musicxml with music21.converter.parse, and writes
 tests/golden/exports/<file>.music21.json: per part, the notes as [MIDI pitch, offset, duration]
 in quarter notes from the start of the part (tied notes merged with stripTies, grace notes left
-out, as collatio keeps them out of the melody). With --check it compares instead of writing and
+out, as collatio keeps them out of the melody), and the chord symbols it finds as
+[root pitch class, bass pitch class, offset] (music21.harmony.ChordSymbol, read from the
+exports' <harmony> elements). With --check it compares instead of writing and
 exits 1 on a difference.
 """
 import argparse
@@ -34,11 +36,15 @@ def read(path):
     for part in score.parts:
         notes = []
         for n in part.stripTies().flatten().notes:
-            if n.duration.isGrace:
+            # Chord symbols are chords to music21 (of no duration); they are read apart below.
+            if n.duration.isGrace or isinstance(n, music21.harmony.ChordSymbol):
                 continue
             pitches = [p.midi for p in n.pitches]
             notes.append([max(pitches), float(n.offset), float(n.quarterLength)])
-        parts.append({"id": part.id, "name": part.partName, "notes": notes})
+        chords = []
+        for c in part.flatten().getElementsByClass(music21.harmony.ChordSymbol):
+            chords.append([c.root().pitchClass, c.bass().pitchClass, float(c.offset)])
+        parts.append({"id": part.id, "name": part.partName, "notes": notes, "chords": chords})
     return {"music21_version": music21.__version__, "file": path.name, "parts": parts}
 
 

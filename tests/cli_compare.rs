@@ -24,6 +24,12 @@ fn compare_prints_a_readable_table() {
     assert!(stdout.contains("up a perfect fifth"), "{stdout}");
     assert!(stdout.contains("Passage 1"), "{stdout}");
     assert!(stdout.contains("= same note after transposing"), "{stdout}");
+    // Two scores: the tempo ratio is of written tempos, not of performances.
+    assert!(stdout.contains("notated tempo, not a performance"), "{stdout}");
+    // The text ends with the usual cautions and the deferral to legal counsel.
+    let tail = &stdout[stdout.rfind("Cautions:").expect("cautions")..];
+    assert!(tail.contains("Similarity is not proof of copying"), "{tail}");
+    assert!(tail.contains("defers to qualified legal counsel"), "{tail}");
 }
 
 #[test]
@@ -41,6 +47,14 @@ fn compare_json_has_the_documented_fields() {
     assert_eq!(v["chance"]["null"], "general");
     assert_eq!(v["a"]["source"]["sha256"].as_str().unwrap().len(), 64);
     assert!(v["parameters"]["gap_open"].is_i64());
+    // The record carries the cautions as a field.
+    let cautions = v["cautions"].as_array().unwrap();
+    assert_eq!(cautions.len(), 4);
+    assert!(cautions
+        .iter()
+        .any(|c| c.as_str().unwrap().contains("legal counsel")));
+    // Scores and MIDI files have no transcription settings.
+    assert!(v["a"]["transcription"].is_null());
     let passages = v["passages"].as_array().unwrap();
     assert!(!passages.is_empty());
     for p in passages {

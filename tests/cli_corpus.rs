@@ -60,12 +60,24 @@ fn compare_with_a_corpus_reports_commonness() {
     assert_eq!(code, 0, "{stderr}");
     let v: Value = serde_json::from_str(&stdout).unwrap();
     assert_eq!(v["corpus"]["melodies"], 8);
+    // The index is identified: path as given, SHA-256 of its bytes, size and build settings.
+    let bytes = std::fs::read(&index).unwrap();
+    assert_eq!(v["corpus"]["path"], index.as_str());
+    assert_eq!(v["corpus"]["bytes"], bytes.len() as u64);
+    assert_eq!(v["corpus"]["sha256"].as_str().unwrap().len(), 64);
+    assert!(v["corpus"]["figure_length"].as_u64().unwrap() > 0);
     let weighted = v["corpus"]["weighted_similarity"].as_f64().unwrap();
     assert!((0.0..=1.0).contains(&weighted));
     let common = &v["passages"][0]["commonness"];
     assert_eq!(common["corpus_melodies"], 8);
     // The whole tune is in the corpus twice exactly (the two Twinkle files) — it is the figure.
     assert!(common["exact"].as_u64().unwrap() >= 2, "{common}");
+    // The text report names the corpus and gives its figures too.
+    let (code, text, stderr) = run(&["compare", &a, &b, "--corpus", &index]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(text.contains("corpus-weighted similarity"), "{text}");
+    assert!(text.contains("melodies hold the figure exactly"), "{text}");
+    assert!(text.contains(&v["corpus"]["sha256"].as_str().unwrap()[..16]), "{text}");
 }
 
 #[test]

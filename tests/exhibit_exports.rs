@@ -123,7 +123,53 @@ fn exports_read_back_with_the_same_notes() {
         let text = std::fs::read_to_string(&xml).unwrap();
         assert!(text.contains("color=\"#1A386B\""));
         assert!(text.contains(&format!("passage {} begins", passage.rank)));
+        // Both files carry the one-line caution (MusicXML: a miscellaneous field and a credit;
+        // MIDI: a text event, meta type 0x01 of the SMF 1.0 specification).
+        assert!(text.contains(
+            "<miscellaneous-field name=\"caution\">Caution: similarity is not proof of copying"
+        ));
+        assert!(text.contains("<credit page=\"1\">"));
+        let smf = std::fs::read(&mid).unwrap();
+        let caution = collatio::report::cautions::ONE_LINE.as_bytes();
+        assert!(smf.windows(caution.len()).any(|w| w == caution));
+        let at = smf
+            .windows(caution.len())
+            .position(|w| w == caution)
+            .unwrap();
+        // FF 01 <length> <text>: the length fits in a one- or two-byte variable-length quantity.
+        assert!(smf[..at]
+            .windows(2)
+            .rev()
+            .take(3)
+            .any(|w| w == [0xFF, 0x01]));
     }
+}
+
+/// Chord symbols of one part of a file as collatio reads them: (root pitch class, bass pitch
+/// class, onset in quarter notes from the start of the part).
+fn chords(path: &Path, part: &str) -> Vec<(i32, i32, f64)> {
+    let options = ReadOptions {
+        choice: MelodyChoice {
+            part: Some(part.into()),
+            ..MelodyChoice::default()
+        },
+        ..ReadOptions::default()
+    };
+    let piece = read_file(path, &options).unwrap();
+    let pc = |step: collatio::theory::Step, alter: i32| {
+        (step.natural_semitones() + alter).rem_euclid(12)
+    };
+    piece
+        .chord_symbols
+        .iter()
+        .filter(|c| c.part == piece.selection.part)
+        .map(|c| {
+            let parts = collatio::theory::parse_chord_symbol(&c.text).unwrap();
+            let root = pc(parts.root, parts.root_alter);
+            let bass = parts.bass.map_or(root, |(s, a)| pc(s, a));
+            (root, bass, c.onset.0)
+        })
+        .collect()
 }
 
 #[test]
@@ -163,6 +209,35 @@ fn music21_reads_the_same_notes_as_collatio() {
                 .collect();
             let got = melody(&dir.path().join(export), &format!("P{}", k + 1));
             assert_same(&format!("{export} part {}", k + 1), &got, &want);
+            // Chord symbols are written as <harmony> elements (MusicXML 4.0): music21 reads
+            // them as chord symbols with the same root, bass and place as collatio does.
+            let want: Vec<(i32, i32, f64)> = part["chords"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|c| {
+                    (
+                        c[0].as_i64().unwrap() as i32,
+                        c[1].as_i64().unwrap() as i32,
+                        c[2].as_f64().unwrap(),
+                    )
+                })
+                .collect();
+            assert!(!want.is_empty(), "{export}: music21 found no chord symbols");
+            let got = chords(&dir.path().join(export), &format!("P{}", k + 1));
+            assert_eq!(
+                got.len(),
+                want.len(),
+                "{export} part {}: chord count",
+                k + 1
+            );
+            for (g, w) in got.iter().zip(&want) {
+                assert!(
+                    g.0 == w.0 && g.1 == w.1 && (g.2 - w.2).abs() < TOLERANCE,
+                    "{export} part {}: chord got {g:?}, music21 {w:?}",
+                    k + 1
+                );
+            }
             checked += 1;
         }
     }

@@ -10,7 +10,7 @@
 use super::Passage;
 use crate::align::harmony::{compare_harmony, HarmonyParams};
 use crate::features::chroma::chroma_of;
-use crate::theory::describe_transposition;
+use crate::theory::describe_pitch_class_shift;
 use crate::timeline::{ChromaSource, Piece};
 use serde::Serialize;
 
@@ -53,7 +53,8 @@ pub struct HarmonicEvidence {
     pub sources: [ChromaSource; 2],
     /// B's key relative to A's by the optimal transposition index, −5 … +6 semitones.
     pub transposition_semitones: i32,
-    /// The same as an interval and direction.
+    /// The same as a shift of pitch classes, in the direction of the strongest melodic passage
+    /// when that moves the pitch classes alike (chroma has no octave).
     pub transposition: String,
     /// Whether the chroma was compared per beat (on both works' beats) rather than
     /// on fixed-time frames.
@@ -112,7 +113,10 @@ pub fn harmonic_evidence(
     HarmonicEvidence {
         sources: [chroma_a.source, chroma_b.source],
         transposition_semitones: found.transposition_semitones,
-        transposition: describe_transposition(found.transposition_semitones),
+        transposition: describe_pitch_class_shift(
+            found.transposition_semitones,
+            melodic.first().map(|p| p.transposition_semitones),
+        ),
         beat_synchronous: found.beat_synchronous,
         frame_seconds: found.frame_seconds,
         recurrence_rate: found.recurrence_rate,

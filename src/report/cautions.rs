@@ -10,6 +10,11 @@ pub const SHORT: [&str; 4] = [
      to qualified legal counsel and the law that applies.",
 ];
 
+/// The cautions in one line, for files where space is short (passage exports).
+pub const ONE_LINE: &str = "Caution: similarity is not proof of copying; shared material may be \
+    commonplace or in the public domain; this rests on the transcription of each work; it is \
+    not legal advice and defers to qualified legal counsel and the law that applies.";
+
 /// The short cautions as an indented paragraph for a text report.
 pub fn short_text() -> String {
     let mut out = String::from("\nCautions:\n");

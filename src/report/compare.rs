@@ -1,8 +1,8 @@
 //! The `compare` report: a short table of passages for people, or the JSON record
 //! (schema in `docs/compare-json.md`).
 
-use super::cautions::{chance_caution, chance_words};
-use super::format::{bar_span, format_e_value, trim_number};
+use super::cautions::{chance_caution, chance_words, short_text};
+use super::format::{bar_span, format_e_value, format_empirical_p, trim_number};
 use crate::align::AlignParams;
 use crate::compare::harmony::HarmonicSide;
 use crate::compare::sync::MIN_AGREEING_NOTES;
@@ -64,6 +64,8 @@ pub struct CompareRecord {
     pub harmony: Option<crate::compare::harmony::HarmonicEvidence>,
     /// The alignment of a recording to a score (`null` unless one work is each).
     pub synchronisation: Option<crate::compare::sync::SyncSummary>,
+    /// The usual cautions, in short: what the record does not show.
+    pub cautions: Vec<&'static str>,
 }
 
 fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
@@ -101,6 +103,7 @@ pub fn record(findings: &Findings) -> CompareRecord {
         passages: result.passages.clone(),
         harmony: result.harmony.clone(),
         synchronisation: result.synchronisation.clone(),
+        cautions: super::cautions::SHORT.to_vec(),
     }
 }
 
@@ -142,10 +145,18 @@ pub fn render_text(findings: &Findings) -> String {
         result.passages.len(),
         if result.passages.len() == 1 { "" } else { "s" }
     ));
+    if let Some(corpus) = &result.corpus {
+        out.push_str(&format!(
+            "corpus {}; corpus-weighted similarity {:.2}\n",
+            corpus.source.line(),
+            corpus.weighted_similarity
+        ));
+    }
     out.push_str(&render_synchronisation(result));
     if result.passages.is_empty() {
         out.push_str("\nNo shared melodic passage reaches the reporting threshold.\n");
         out.push_str(&render_harmony(result));
+        out.push_str(&short_text());
         return out;
     }
     out.push_str(&format!(
@@ -169,10 +180,11 @@ pub fn render_text(findings: &Findings) -> String {
                 .map_or_else(|| "-".to_string(), |s| format_e_value(s.e_value))
         ));
     }
-    out.push_str(
-        "\n tempo: how much faster B performs the passage; PMI: percent melodic identity \
-         (identical notes after transposing, both sides counted)\n",
-    );
+    out.push_str(&format!(
+        "\n B relative to A: the shift that takes A's notes to B's; tempo: {}; PMI: percent \
+         melodic identity (identical notes after transposing, both sides counted)\n",
+        tempo_words(a, b)
+    ));
     if let Some(chance) = &result.chance {
         out.push_str(&format!(
             " E-value: how many passages this strong to expect by chance. {}\n",
@@ -185,9 +197,34 @@ pub fn render_text(findings: &Findings) -> String {
     }
     for f in &result.passages {
         out.push_str(&render_passage(a, b, &f.passage));
+        if let Some(c) = &f.commonness {
+            out.push_str(&format!(
+                "  In the reference corpus: {} of {} melodies hold the figure exactly, {} within \
+                 the alignment's tolerance\n",
+                c.exact, c.corpus_melodies, c.similar
+            ));
+        }
     }
     out.push_str(&render_harmony(result));
+    out.push_str(&short_text());
     out
+}
+
+/// What the tempo column measures: the performed tempo when a recording is involved, the
+/// tempo written in the files otherwise (a score's or MIDI file's tempo marking is an
+/// instruction, not a performance).
+fn tempo_words(a: &Piece, b: &Piece) -> &'static str {
+    match (a.transcription.is_some(), b.transcription.is_some()) {
+        (false, false) => {
+            "how much faster B's passage goes than A's at the tempos written in the files \
+             (notated tempo, not a performance)"
+        }
+        (true, true) => "how much faster B performs the passage than A",
+        _ => {
+            "how much faster B's passage goes than A's, one side as performed and the other \
+              at its written tempo"
+        }
+    }
 }
 
 /// How a recording follows a score, when one work is each.
@@ -268,7 +305,7 @@ fn render_harmony(result: &Findings) -> String {
             p.tempo_ratio,
             p.score,
             p.similarity,
-            format!("{:.3}", p.empirical_p),
+            format_empirical_p(p.empirical_p, h.parameters.shuffles),
             p.confirms
                 .map_or_else(|| "-".to_string(), |r| format!("melodic #{r}"))
         ));

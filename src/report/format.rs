@@ -35,6 +35,19 @@ pub fn format_e_value(e: f64) -> String {
     }
 }
 
+/// An empirical p-value from `draws` random draws, `(1 + exceeding) / (1 + draws)` (North,
+/// Curtis & Sham 2002, "A note on the calculation of empirical P values from Monte Carlo
+/// procedures"): at its floor, when no draw reached the observed value, the true p
+/// can be anything below it, so it prints as `≤ 0.01`; otherwise `0.03`.
+pub fn format_empirical_p(p: f64, draws: usize) -> String {
+    let floor = 1.0 / (draws as f64 + 1.0);
+    if p <= floor * (1.0 + 1e-9) {
+        format!("≤ {}", trim_number(floor, 3))
+    } else {
+        trim_number(p, 3)
+    }
+}
+
 /// Small values in plain scientific notation for prose: `0.0021`, `3.1×10^-7`.
 pub fn sci(x: f64) -> String {
     if x == 0.0 {
@@ -80,5 +93,8 @@ mod tests {
         assert_eq!(format_e_value(0.003), "3e-3");
         assert_eq!(bars_text("9", "16"), "bars 9–16");
         assert_eq!(bar_span("9", "9", '-'), "bar 9");
+        // 99 shuffles, none as strong: p = 1/100 at its floor.
+        assert_eq!(format_empirical_p(0.01, 99), "≤ 0.01");
+        assert_eq!(format_empirical_p(0.03, 99), "0.03");
     }
 }

@@ -15,6 +15,8 @@ use midly::{Format, Header, MetaMessage, MidiMessage, Smf, Timing, TrackEvent, T
 pub enum SmfEvent {
     /// Sequence/track name (meta 0x03).
     TrackName(Vec<u8>),
+    /// Text event (meta 0x01).
+    Text(Vec<u8>),
     /// Lyric (meta 0x05).
     Lyric(Vec<u8>),
     /// Marker (meta 0x06).
@@ -48,6 +50,7 @@ impl SmfEvent {
         };
         match self {
             SmfEvent::TrackName(b) => TrackEventKind::Meta(MetaMessage::TrackName(b)),
+            SmfEvent::Text(b) => TrackEventKind::Meta(MetaMessage::Text(b)),
             SmfEvent::Lyric(b) => TrackEventKind::Meta(MetaMessage::Lyric(b)),
             SmfEvent::Marker(b) => TrackEventKind::Meta(MetaMessage::Marker(b)),
             SmfEvent::Tempo(micros) => TrackEventKind::Meta(MetaMessage::Tempo(u24::new(

@@ -119,6 +119,35 @@ impl Interval {
     }
 }
 
+/// Names a shift of pitch classes, which has no octave: `3` is both up a minor third and down a
+/// major sixth. When a melodic transposition `hint` (semitones, octaves included) moves the
+/// pitch classes by the same amount, its direction is used, so that one report names one shift
+/// one way; otherwise both readings are given.
+///
+/// `3, None` → `up a minor third or down a major sixth (pitch classes)`;
+/// `3, Some(-9)` → `down a major sixth (pitch classes)`.
+pub fn describe_pitch_class_shift(semitones: i32, hint: Option<i32>) -> String {
+    let pc = semitones.rem_euclid(12);
+    if pc == 0 {
+        return "at the same pitch classes".into();
+    }
+    if let Some(h) = hint.filter(|h| h.rem_euclid(12) == pc) {
+        // Within an octave, in the hint's direction.
+        let within = h.signum() * (h.abs() % 12);
+        return format!("{} (pitch classes)", describe_transposition(within));
+    }
+    if pc == 6 {
+        return "up or down a tritone (pitch classes)".into();
+    }
+    // The nearer reading first.
+    let (near, far) = if pc < 6 { (pc, pc - 12) } else { (pc - 12, pc) };
+    format!(
+        "{} or {} (pitch classes)",
+        describe_transposition(near),
+        describe_transposition(far)
+    )
+}
+
 /// Names a transposition: `0` → `same pitch`, `−3` → `down a minor third`.
 pub fn describe_transposition(semitones: i32) -> String {
     if semitones == 0 {
@@ -159,4 +188,41 @@ pub fn describe_transposition(semitones: i32) -> String {
     };
     let direction = if semitones > 0 { "up" } else { "down" };
     format!("{direction} {name}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Interval sizes and inversion (a minor third inverts to a major sixth; an interval and its
+    // inversion add up to an octave, 12 semitones): common practice of music theory.
+    #[test]
+    fn pitch_class_shift_names_both_readings_or_the_melodic_one() {
+        assert_eq!(
+            describe_pitch_class_shift(3, None),
+            "up a minor third or down a major sixth (pitch classes)"
+        );
+        assert_eq!(
+            describe_pitch_class_shift(3, Some(-9)),
+            "down a major sixth (pitch classes)"
+        );
+        // Octaves of the melodic shift do not matter to pitch classes.
+        assert_eq!(
+            describe_pitch_class_shift(-9, Some(-21)),
+            "down a major sixth (pitch classes)"
+        );
+        // A hint that moves the pitch classes otherwise is not used.
+        assert_eq!(
+            describe_pitch_class_shift(-5, Some(2)),
+            "down a perfect fourth or up a perfect fifth (pitch classes)"
+        );
+        assert_eq!(
+            describe_pitch_class_shift(12, None),
+            "at the same pitch classes"
+        );
+        assert_eq!(
+            describe_pitch_class_shift(6, None),
+            "up or down a tritone (pitch classes)"
+        );
+    }
 }

@@ -1,5 +1,5 @@
 //! Music theory: pitch names and spelling, intervals and transpositions in words, keys (names,
-//! tonics, scale degrees, spelling in a key) and equal-temperament tuning.
+//! tonics, scale degrees, spelling in a key), chord-symbol text and equal-temperament tuning.
 //!
 //! Numbers go in, names come out, and every table here is checked in tests against a published
 //! source (interval sizes against a theory handbook, frequencies against the piano-key table
@@ -11,12 +11,14 @@
 //! assert_eq!(Interval::parse("P5").map(|i| i.semitones()), Some(7));
 //! ```
 
+mod chord;
 mod interval;
 mod key;
 mod pitch;
 mod tuning;
 
-pub use interval::{describe_transposition, Interval, Quality};
+pub use chord::{kind_suffix, parse_chord_symbol, ChordParts, KINDS};
+pub use interval::{describe_pitch_class_shift, describe_transposition, Interval, Quality};
 pub use key::{
     degree, fifths_of, key_name, parse_tonic, spell_in_key, spelling_shift, tonic, KeyMode,
 };

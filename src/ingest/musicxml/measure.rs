@@ -557,7 +557,8 @@ fn chord_symbol(node: Node, transpose: (i32, f64)) -> Option<String> {
     let root = child(node, "root").and_then(|r| note_name(r, "root-step", "root-alter"))?;
     let suffix = match kind_node.and_then(|k| k.attribute("text")) {
         Some(text) => text.to_string(),
-        None => kind_suffix(kind_node.and_then(|k| k.text()).map_or("", str::trim)).to_string(),
+        None => crate::theory::kind_suffix(kind_node.and_then(|k| k.text()).map_or("", str::trim))
+            .to_string(),
     };
     let mut text = format!("{root}{suffix}");
     for degree in node.children().filter(|c| c.has_tag_name("degree")) {
@@ -581,38 +582,6 @@ fn chord_symbol(node: Node, transpose: (i32, f64)) -> Option<String> {
         text.push_str(&bass);
     }
     Some(text)
-}
-
-/// The usual lead-sheet suffix of a MusicXML `<kind>` value (common practice).
-fn kind_suffix(kind: &str) -> &'static str {
-    match kind {
-        "minor" => "m",
-        "augmented" => "+",
-        "diminished" => "dim",
-        "dominant" => "7",
-        "major-seventh" => "maj7",
-        "minor-seventh" => "m7",
-        "diminished-seventh" => "dim7",
-        "augmented-seventh" => "+7",
-        "half-diminished" => "m7b5",
-        "major-minor" => "m(maj7)",
-        "major-sixth" => "6",
-        "minor-sixth" => "m6",
-        "dominant-ninth" => "9",
-        "major-ninth" => "maj9",
-        "minor-ninth" => "m9",
-        "dominant-11th" => "11",
-        "major-11th" => "maj11",
-        "minor-11th" => "m11",
-        "dominant-13th" => "13",
-        "major-13th" => "maj13",
-        "minor-13th" => "m13",
-        "suspended-second" => "sus2",
-        "suspended-fourth" => "sus4",
-        "power" => "5",
-        "pedal" => "ped",
-        _ => "",
-    }
 }
 
 #[cfg(test)]

@@ -44,6 +44,11 @@ pub struct ExhibitContext {
     pub any_corpus: bool,
     /// Any input from audio (estimated bars).
     pub any_audio: bool,
+    /// Both works are scores or MIDI files: their tempo is the one written in the file, not a
+    /// performance.
+    pub tempo_written: bool,
+    /// The reference corpus consulted, in one sentence with its identity (empty when none).
+    pub corpus: String,
     /// Document digest: SHA-256 of the inputs and options (hex).
     pub digest: String,
     /// What the chance figures rest on, in sentences (empty when they were not computed).
@@ -94,10 +99,31 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         any_significance: r.passages.iter().any(|p| p.significance.is_some()),
         any_corpus: r.passages.iter().any(|p| p.commonness.is_some()),
         any_audio: ex.a.bars.iter().chain(&ex.b.bars).any(|b| b.estimated),
+        tempo_written: ex.a.transcription.is_none() && ex.b.transcription.is_none(),
+        corpus: r.corpus.as_ref().map(corpus_sentence).unwrap_or_default(),
         digest: ex.digest(),
         chance: r.chance.as_ref().map(chance_words).unwrap_or_default(),
         chance_caution: r.chance.as_ref().map(chance_caution).unwrap_or_default(),
         harmony: harmony_context(r.harmony.as_ref()),
         sync: sync_context(r.synchronisation.as_ref()),
     }
+}
+
+/// The reference corpus as a sentence: the index file, its hash and how it was built, and the
+/// corpus-weighted similarity of the two melodies.
+fn corpus_sentence(c: &crate::corpus::CorpusSummary) -> String {
+    let src = &c.source;
+    format!(
+        "The reference corpus was the index `{}` ({} melodies; figures of {} intervals; index \
+         format {}; {}; SHA-256 `{}`). Weighting the figures the two melodies share by their \
+         rarity in that corpus (after Müllensiefen & Pendzich 2009) gives a corpus-weighted \
+         similarity of {} (0 = nothing shared, 1 = the same figures throughout).",
+        src.path,
+        src.melodies,
+        src.figure_length,
+        src.format_version,
+        crate::report::format::size_text(src.bytes),
+        src.sha256,
+        trim_number(c.weighted_similarity, 2)
+    )
 }

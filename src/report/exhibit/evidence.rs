@@ -3,7 +3,7 @@
 
 use crate::compare::harmony::{HarmonicEvidence, HarmonicSide};
 use crate::compare::sync::SyncSummary;
-use crate::report::format::{bars_text, trim_number};
+use crate::report::format::{bars_text, format_empirical_p, trim_number};
 use crate::theory::describe_transposition;
 use crate::timeline::ChromaSource;
 use serde::Serialize;
@@ -113,7 +113,7 @@ pub fn harmony_context(evidence: Option<&HarmonicEvidence>) -> Option<HarmonyCon
                 tempo: trim_number(x.tempo_ratio, 2),
                 score: trim_number(f64::from(x.score), 1),
                 similarity: trim_number(x.similarity, 2),
-                p: trim_number(x.empirical_p, 3),
+                p: format_empirical_p(x.empirical_p, p.shuffles),
                 confirms: x
                     .confirms
                     .map_or_else(|| "–".to_string(), |r| format!("passage {r}")),

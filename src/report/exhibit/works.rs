@@ -54,6 +54,8 @@ pub struct WorkContext {
     pub uncovered: String,
     /// Where a recording's melody extractor was unsure, as text; empty when nowhere.
     pub unsure: String,
+    /// How a recording was transcribed (every setting and estimate); empty for scores and MIDI.
+    pub transcription: String,
 }
 
 /// A work as the templates see it.
@@ -88,11 +90,17 @@ pub fn work_context(
         || "4/4 (assumed)".to_string(),
         |t| format!("{}/{}", t.numerator, t.denominator),
     );
-    let tempo = piece
-        .tempo
-        .changes
-        .first()
-        .map_or_else(String::new, |c| trim_number(c.bpm(), 1));
+    // A recording's one tempo figure is the tracked tempo, the one its bars were built on.
+    let tempo = match &piece.transcription {
+        Some(t) if t.estimated_tempo_bpm > 0.0 => {
+            format!("{} (tracked)", trim_number(t.estimated_tempo_bpm, 1))
+        }
+        _ => piece
+            .tempo
+            .changes
+            .first()
+            .map_or_else(String::new, |c| trim_number(c.bpm(), 1)),
+    };
     WorkContext {
         tag: tag.into(),
         label: label.into(),
@@ -128,7 +136,64 @@ pub fn work_context(
         warnings: piece.warnings.clone(),
         uncovered: uncovered_bars(piece, ranges),
         unsure: unsure_text(piece),
+        transcription: piece
+            .transcription
+            .as_ref()
+            .map_or_else(String::new, transcription_text),
     }
+}
+
+/// Every setting and estimate of a recording's transcription, as one line: what a reader needs
+/// to repeat it.
+pub fn transcription_text(t: &crate::timeline::Transcription) -> String {
+    let seconds = |x: Option<f64>, none: &str| {
+        x.map_or_else(|| none.to_string(), |s| format!("{} s", trim_number(s, 2)))
+    };
+    let mut parts = vec![
+        format!("A4 = {} Hz", trim_number(t.a4_hz, 2)),
+        format!(
+            "melody searched from {} to {} Hz",
+            trim_number(t.fmin_hz, 1),
+            trim_number(t.fmax_hz, 1)
+        ),
+        format!(
+            "range {} to {} ({} s analysed at {} Hz; at most {} s)",
+            seconds(t.from_seconds, "the start"),
+            seconds(t.to_seconds, "the end"),
+            trim_number(t.analysed_seconds, 2),
+            t.analysis_rate_hz,
+            trim_number(t.max_seconds, 0)
+        ),
+        format!(
+            "melody tracker {} ({} asked)",
+            t.melody_used, t.melody_requested
+        ),
+        match t.tempo_hint_bpm {
+            Some(b) => format!("tempo hint {} beats per minute", trim_number(b, 1)),
+            None => "no tempo hint".into(),
+        },
+        match t.meter {
+            Some((n, d)) => format!("meter {n}/{d} as given"),
+            None => "meter 4/4 assumed".into(),
+        },
+        match t.downbeat_seconds {
+            Some(d) => format!("first downbeat at {} s as given", trim_number(d, 3)),
+            None => "downbeats estimated".into(),
+        },
+        format!(
+            "estimated tuning {:+} cents from A4",
+            (t.estimated_tuning_semitones * 100.0).round() as i64
+        ),
+    ];
+    if t.estimated_tempo_bpm > 0.0 {
+        parts.push(format!(
+            "tracked tempo {} beats per minute",
+            trim_number(t.estimated_tempo_bpm, 1)
+        ));
+    } else {
+        parts.push("no steady beat found".into());
+    }
+    parts.join("; ")
 }
 
 /// The unsure spans of a recording's transcription: each span as seconds with its bar, at most

@@ -39,6 +39,10 @@ pub fn midi(
             0,
             SmfEvent::TrackName(format!("collatio passage {}", passage.rank).into_bytes()),
         ),
+        (
+            0,
+            SmfEvent::Text(crate::report::cautions::ONE_LINE.as_bytes().to_vec()),
+        ),
         (0, SmfEvent::Tempo(tempo)),
         (
             0,

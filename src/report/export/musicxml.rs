@@ -62,6 +62,7 @@ pub fn musicxml(ex: &Exhibit<'_>, passage: &Passage, view: &PassageView) -> Stri
         ),
         ("a-shown", format!("{} (the work is in {})", view.a.shown_key, view.a.own_key)),
         ("b-shown", format!("{} (the work is in {})", view.b.shown_key, view.b.own_key)),
+        ("caution", crate::report::cautions::ONE_LINE.to_string()),
     ];
     for (name, value) in fields {
         let _ = writeln!(
@@ -70,7 +71,14 @@ pub fn musicxml(ex: &Exhibit<'_>, passage: &Passage, view: &PassageView) -> Stri
             esc(&value)
         );
     }
-    x.push_str("    </miscellaneous>\n  </identification>\n  <part-list>\n");
+    x.push_str("    </miscellaneous>\n  </identification>\n");
+    // The caution printed on the page as well, under the music (a credit of page 1).
+    let _ = writeln!(
+        x,
+        "  <credit page=\"1\">\n    <credit-words valign=\"bottom\" font-size=\"7\">{}</credit-words>\n  </credit>",
+        esc(crate::report::cautions::ONE_LINE)
+    );
+    x.push_str("  <part-list>\n");
     for (id, label) in [
         ("P1", format!("A: {}", ex.label_a)),
         ("P2", format!("B: {}", ex.label_b)),
@@ -163,11 +171,7 @@ fn part_measures(
                 if *t > ev.start {
                     break;
                 }
-                let _ = write!(
-                    x,
-                    "      <direction placement=\"above\">\n        <direction-type>\n          <words font-weight=\"bold\">{}</words>\n        </direction-type>\n      </direction>\n",
-                    esc(text)
-                );
+                x.push_str(&harmony_xml(text));
                 chords.next();
             }
             let note = ev.note.and_then(|k| side.notes.get(k));
@@ -257,6 +261,39 @@ fn part_measures(
         }
         x.push_str("    </measure>\n");
     }
+}
+
+/// A chord symbol as a MusicXML 4.0 `<harmony>` element (root, kind with the printed suffix as
+/// its `text`, bass), so that notation editors read it as a chord; text that names no root
+/// stays a `<words>` direction.
+fn harmony_xml(text: &str) -> String {
+    let Some(c) = crate::theory::parse_chord_symbol(text) else {
+        return format!(
+            "      <direction placement=\"above\">\n        <direction-type>\n          <words>{}</words>\n        </direction-type>\n      </direction>\n",
+            esc(text)
+        );
+    };
+    let alter = |a: i32, tag: &str| {
+        if a == 0 {
+            String::new()
+        } else {
+            format!("<{tag}>{a}</{tag}>")
+        }
+    };
+    let bass = c.bass.map_or_else(String::new, |(step, a)| {
+        format!(
+            "        <bass>\n          <bass-step>{}</bass-step>{}\n        </bass>\n",
+            step.letter(),
+            alter(a, "bass-alter")
+        )
+    });
+    format!(
+        "      <harmony placement=\"above\">\n        <root>\n          <root-step>{}</root-step>{}\n        </root>\n        <kind text=\"{}\">{}</kind>\n{bass}      </harmony>\n",
+        c.root.letter(),
+        alter(c.root_alter, "root-alter"),
+        esc(&c.suffix),
+        c.kind
+    )
 }
 
 fn pitch_xml(s: crate::theory::Spelling) -> String {
