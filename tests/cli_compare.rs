@@ -25,10 +25,16 @@ fn compare_prints_a_readable_table() {
     assert!(stdout.contains("Passage 1"), "{stdout}");
     assert!(stdout.contains("= same note after transposing"), "{stdout}");
     // Two scores: the tempo ratio is of written tempos, not of performances.
-    assert!(stdout.contains("notated tempo, not a performance"), "{stdout}");
+    assert!(
+        stdout.contains("notated tempo, not a performance"),
+        "{stdout}"
+    );
     // The text ends with the usual cautions and the deferral to legal counsel.
     let tail = &stdout[stdout.rfind("Cautions:").expect("cautions")..];
-    assert!(tail.contains("Similarity is not proof of copying"), "{tail}");
+    assert!(
+        tail.contains("Similarity is not proof of copying"),
+        "{tail}"
+    );
     assert!(tail.contains("defers to qualified legal counsel"), "{tail}");
 }
 

@@ -77,7 +77,10 @@ fn compare_with_a_corpus_reports_commonness() {
     assert_eq!(code, 0, "{stderr}");
     assert!(text.contains("corpus-weighted similarity"), "{text}");
     assert!(text.contains("melodies hold the figure exactly"), "{text}");
-    assert!(text.contains(&v["corpus"]["sha256"].as_str().unwrap()[..16]), "{text}");
+    assert!(
+        text.contains(&v["corpus"]["sha256"].as_str().unwrap()[..16]),
+        "{text}"
+    );
 }
 
 #[test]

@@ -14,6 +14,14 @@
 //!   note-value ratio, and B's differ by more than [`LENGTH_TOLERANCE`] of the longer one;
 //!   they are moved in the bar when their offsets from the (nominal) bar start, A's scaled the
 //!   same way, differ by more than [`PLACEMENT_TOLERANCE`] quarter notes.
+//! - A recording's notes are judged on its tracked beat grid: onsets and lengths are read to the
+//!   nearest sixteenth ([`crate::timeline::RECORDING_GRID_QUARTERS`]) first, so that the timing
+//!   jitter of a performance is not reported as changed rhythm ([`Piece::grid_position`]); and
+//!   when a recording is involved, a note's length is the time to the next onset on both sides
+//!   ([`compared_length`]), as articulation makes sounding lengths unreliable.
+//! - Places in the bar are compared only where the bars correspond (A's bar, scaled by the
+//!   note-value ratio, as long as B's); where a side's bar lines are estimated from tracked
+//!   beats, only the place within the beat is compared.
 //! - A grace note belongs to the passage when it ornaments one of the passage's notes (it
 //!   stands at the same tick in the same part).
 
@@ -85,7 +93,8 @@ impl Difference {
 /// full bar.
 fn metric_offset(piece: &Piece, index: usize) -> Option<f64> {
     let n = piece.melody.get(index)?;
-    let bar = piece.bars.get(n.bar)?;
+    let (bar_index, offset) = piece.grid_position(n);
+    let bar = piece.bars.get(bar_index)?;
     let res = f64::from(piece.resolution.max(1));
     let nominal = f64::from(bar.time_signature.0) * 4.0 / f64::from(bar.time_signature.1.max(1));
     let actual = bar.length_ticks as f64 / res;
@@ -94,23 +103,103 @@ fn metric_offset(piece: &Piece, index: usize) -> Option<f64> {
     } else {
         0.0
     };
-    Some(n.offset_in_bar.0 + lead)
+    Some(offset + lead)
+}
+
+/// Whether a comparison involves a recording, so that rhythm is judged as heard: a recording's
+/// sounding lengths depend on articulation (legato, staccato) and on where the transcriber
+/// ends a note, so note lengths are taken as the time to the next note's onset on both sides.
+pub fn judged_as_heard(a: &Piece, b: &Piece) -> bool {
+    a.transcription.is_some() || b.transcription.is_some()
+}
+
+/// A note's length in quarter notes as the reports compare it: as written when two scores or
+/// MIDI files are compared; as heard (the time to the next note's onset, the last note its own
+/// length) when a recording is involved, on the beat grid
+/// ([`crate::timeline::RECORDING_GRID_QUARTERS`], at least one step).
+pub fn compared_length(piece: &Piece, index: usize, heard: bool) -> Option<f64> {
+    let n = piece.melody.get(index)?;
+    if !heard {
+        return Some(n.duration.0);
+    }
+    let length = piece
+        .melody
+        .get(index + 1)
+        .map_or(n.duration.0, |next| next.onset.0 - n.onset.0);
+    let step = crate::timeline::RECORDING_GRID_QUARTERS;
+    Some(((length / step).round() * step).max(step))
+}
+
+/// A bar's length in quarter notes.
+fn bar_quarters(piece: &Piece, bar: usize) -> Option<f64> {
+    piece
+        .bars
+        .get(bar)
+        .map(|b| b.length_ticks as f64 / f64::from(piece.resolution.max(1)))
 }
 
 /// The differences of an identical pair: its length, then its place in the bar.
 fn identical_pair(a: &Piece, b: &Piece, i: usize, j: usize, ratio: f64) -> Vec<DifferenceKind> {
     let mut out = Vec::new();
-    let (Some(na), Some(nb)) = (a.melody.get(i), b.melody.get(j)) else {
+    let heard = judged_as_heard(a, b);
+    let (Some(la), Some(lb)) = (compared_length(a, i, heard), compared_length(b, j, heard)) else {
         return out;
     };
-    // Lengths compared in B's note values: A's length times the passage's ratio.
-    let la = na.duration.0 * ratio;
-    let lb = nb.duration.0;
+    // Lengths and places compared in B's note values: A's times the passage's ratio, then, when
+    // a recording is involved, read on the beat grid again (the ratio of a performance is not
+    // exact).
+    let on_grid = |x: f64| {
+        if heard {
+            let step = crate::timeline::RECORDING_GRID_QUARTERS;
+            (x / step).round() * step
+        } else {
+            x
+        }
+    };
+    let la = on_grid(la * ratio);
     if (la - lb).abs() > LENGTH_TOLERANCE * la.max(lb).max(LENGTH_FLOOR) {
         out.push(DifferenceKind::Rhythm);
     }
-    if let (Some(oa), Some(ob)) = (metric_offset(a, i), metric_offset(b, j)) {
-        if (oa * ratio - ob).abs() > PLACEMENT_TOLERANCE {
+    // A place in the bar can be compared only where the bars correspond: A's bar, scaled by
+    // the ratio, as long as B's (not so when a beat tracker counted a recording's beats at
+    // double or half speed, or the works are in different meters).
+    let bars_correspond = match (a.melody.get(i), b.melody.get(j)) {
+        (Some(na), Some(nb)) => matches!(
+            (
+                bar_quarters(a, a.grid_position(na).0),
+                bar_quarters(b, b.grid_position(nb).0)
+            ),
+            (Some(x), Some(y)) if (on_grid(x * ratio) - y).abs() <= PLACEMENT_TOLERANCE.max(if heard { crate::timeline::RECORDING_GRID_QUARTERS } else { 0.0 })
+        ),
+        _ => false,
+    };
+    // Where a side's bar lines are estimated from tracked beats, only the place within the beat
+    // is compared: a misplaced downbeat would otherwise move every note.
+    let estimated = |p: &Piece, k: usize| {
+        p.melody
+            .get(k)
+            .and_then(|n| p.bars.get(p.grid_position(n).0))
+            .is_some_and(|bar| bar.estimated)
+    };
+    let within_beat = estimated(a, i) || estimated(b, j);
+    // ... and only when the beats correspond too (the tracker counted the written beat, not
+    // twice or half of it).
+    let beats_correspond = !within_beat || (ratio - 1.0).abs() < 0.1;
+    if let (true, true, Some(oa), Some(ob)) = (
+        bars_correspond,
+        beats_correspond,
+        metric_offset(a, i),
+        metric_offset(b, j),
+    ) {
+        let oa = on_grid(oa * ratio);
+        let moved = if within_beat {
+            // The beat: a quarter note of B's notation (the tracked beat of a recording).
+            let d = (oa.rem_euclid(1.0) - ob.rem_euclid(1.0)).abs();
+            d.min(1.0 - d) > PLACEMENT_TOLERANCE
+        } else {
+            (oa - ob).abs() > PLACEMENT_TOLERANCE
+        };
+        if moved {
             out.push(DifferenceKind::Placement);
         }
     }

@@ -306,11 +306,14 @@ fn side(piece: &Piece, range: (usize, usize), unmatched: usize) -> PassageSide {
     let key = piece
         .key_at(first.onset_ticks)
         .map(|k| key_name(k.fifths, k.mode));
+    // One rule for bars and beats: a recording's onsets are read on the beat grid.
+    let (first_bar, start_beat) = piece.grid_beat(first);
+    let (last_bar, end_beat) = piece.grid_beat(last);
     PassageSide {
-        bars: [label(first.bar), label(last.bar)],
-        bar_indices: [first.bar, last.bar],
-        start_beat: piece.beat_in_bar(first),
-        end_beat: piece.beat_in_bar(last),
+        bars: [label(first_bar), label(last_bar.max(first_bar))],
+        bar_indices: [first_bar, last_bar.max(first_bar)],
+        start_beat,
+        end_beat,
         onset_beats: first.onset.0,
         end_beats: last.onset.0 + last.duration.0,
         onset_seconds: first.onset_seconds.0,

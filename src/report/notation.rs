@@ -561,10 +561,15 @@ fn staff_view(
             spelling,
             mark: marks.get(i).copied().flatten().unwrap_or(Mark::Outside),
             lyric: n.lyric.clone(),
-            degree: degree(pc - t_here, key_here.1).to_string(),
+            // No key stated (a recording, a MIDI file without a key signature): no degree.
+            degree: if piece.key_at(n.onset_ticks).is_some() {
+                degree(pc - t_here, key_here.1).to_string()
+            } else {
+                String::new()
+            },
             interval,
             beats: n.duration.0,
-            beat_in_bar: piece.beat_in_bar(n),
+            beat_in_bar: piece.grid_beat(n).1,
             bar_label: piece
                 .bars
                 .get(n.bar)

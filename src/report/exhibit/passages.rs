@@ -213,17 +213,21 @@ pub fn passage_context(ex: &Exhibit<'_>, f: &Finding, view: &PassageView) -> Pas
 
 /// The words of one note: bar label, beat, name in the common key, scale degree in its own key,
 /// length in quarter notes.
-fn note_words(piece: &Piece, side: &notation::StaffView, i: usize) -> [String; 5] {
+fn note_words(piece: &Piece, side: &notation::StaffView, i: usize, heard: bool) -> [String; 5] {
     let n = side.notes.iter().find(|n| n.index == i);
+    // The bar by the same rule as the beat (a recording's early downbeat is the next bar's).
+    let bar = piece
+        .melody
+        .get(i)
+        .and_then(|note| piece.bars.get(piece.grid_position(note).0))
+        .map(|b| b.label.clone());
     [
-        n.map_or_else(String::new, |n| n.bar_label.clone()),
+        bar.unwrap_or_else(|| n.map_or_else(String::new, |n| n.bar_label.clone())),
         n.map_or_else(String::new, |n| trim_number(n.beat_in_bar, 2)),
         n.map_or_else(String::new, |n| n.name.clone()),
         n.map_or_else(String::new, |n| n.degree.clone()),
-        piece
-            .melody
-            .get(i)
-            .map_or_else(String::new, |n| trim_number(n.duration.0, 3)),
+        crate::compare::differences::compared_length(piece, i, heard)
+            .map_or_else(String::new, |l| trim_number(l, 3)),
     ]
 }
 
@@ -261,16 +265,17 @@ fn kind_word(kind: DifferenceKind) -> &'static str {
 /// One difference in words: the first note of each side, and every note of a split or merged
 /// group.
 fn difference_text(ex: &Exhibit<'_>, view: &PassageView, d: &Difference) -> DifferenceText {
+    let heard = crate::compare::differences::judged_as_heard(ex.a, ex.b);
     let empty = || -> [String; 5] { Default::default() };
     let first = |piece: &Piece, side: &notation::StaffView, notes: &[usize]| {
         notes
             .first()
-            .map_or_else(empty, |&i| note_words(piece, side, i))
+            .map_or_else(empty, |&i| note_words(piece, side, i, heard))
     };
     let names = |piece: &Piece, side: &notation::StaffView, notes: &[usize]| {
         notes
             .iter()
-            .map(|&i| note_words(piece, side, i)[2].clone())
+            .map(|&i| note_words(piece, side, i, heard)[2].clone())
             .collect::<Vec<_>>()
             .join(" ")
     };
