@@ -71,3 +71,43 @@ fn an_unrelated_progression_gives_no_harmonic_passage() {
         assert!(result.matches.is_empty(), "{other}: {:?}", result.matches);
     }
 }
+
+/// The same pair with fixed-time frames (the `step` and `window` used when a work has no beat
+/// grid) instead of the beat grid. Measured: one passage, A 20.0–40.2 s against B 31.3–48.0 s,
+/// p = 0.01: the hook (A's bars 9–16, B's 17–24) within a bar, without the three-bar lead-in
+/// that the beat grid finds. Checked: one passage, on the shared stretch (A's bars 6–16, B's
+/// 13–24, within a bar), covering at least the hook.
+#[test]
+fn the_demos_shared_progression_with_fixed_time_frames() {
+    let params = HarmonyParams {
+        per_beat: 0,
+        ..HarmonyParams::default()
+    };
+    let result = compare_harmony(
+        &chroma("pierside-lamps.musicxml"),
+        &chroma("millstream-boats.musicxml"),
+        &params,
+    );
+    assert!(!result.beat_synchronous);
+    assert_eq!(result.transposition_semitones, 3, "{result:?}");
+    let best = result.matches.first().expect("a harmonic passage");
+    // Starts between the lead-in and the hook, less or more one bar; ends with the hook.
+    let (lead_a, hook_a, end_a) = (
+        bar_start(6, 96.0, 1.0),
+        bar_start(9, 96.0, 1.0),
+        bar_start(17, 96.0, 1.0),
+    );
+    let (lead_b, hook_b, end_b) = (
+        bar_start(13, 120.0, 0.0),
+        bar_start(17, 120.0, 0.0),
+        bar_start(25, 120.0, 0.0),
+    );
+    let a = best.a_seconds;
+    let b = best.b_seconds;
+    assert!(a[0] > lead_a - 2.5 && a[0] < hook_a + 2.5, "{best:?}");
+    assert!(b[0] > lead_b - 2.0 && b[0] < hook_b + 2.0, "{best:?}");
+    assert!((a[1] - end_a).abs() < 2.5, "{best:?}");
+    assert!((b[1] - end_b).abs() < 2.0, "{best:?}");
+    assert!(best.empirical_p <= 0.05, "{best:?}");
+    assert_eq!(result.matches.len(), 1, "{:?}", result.matches);
+}
