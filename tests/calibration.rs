@@ -111,7 +111,12 @@ fn shuffle_null_p_values(
     let (first, second) = (of(first), of(second));
     let mut pairs: Vec<(usize, usize)> = first
         .iter()
-        .flat_map(|&i| second.iter().filter(move |&&j| j != i).map(move |&j| (i, j)))
+        .flat_map(|&i| {
+            second
+                .iter()
+                .filter(move |&&j| j != i)
+                .map(move |&j| (i, j))
+        })
         .collect();
     assert!(pairs.len() >= PAIRS, "not enough melodies");
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(2026);
