@@ -1,4 +1,5 @@
-//! Music-theory tables checked against published sources.
+//! Music-theory tables checked against published sources, values worked by hand from a
+//! published formula, or (where marked) common practice.
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
 use approx::assert_abs_diff_eq;
@@ -61,11 +62,14 @@ fn interval_names_from_sizes() {
     assert_eq!(Interval::from_semitones(24).abbreviation(), "P15");
 }
 
-/// Equal-temperament frequencies against the published piano-key frequency table, with
-/// A4 = 440 Hz per ISO 16:1975: A0 27.500 Hz, C4 261.626 Hz, A4 440.000 Hz, C8 4186.009 Hz;
-/// MIDI 0 = 8.176 Hz. The table prints three decimals, hence the tolerance.
+/// Equal-temperament frequencies against values worked by hand from the twelve-tone
+/// equal-temperament formula f = 440 · 2^((n − 69)/12), n the MIDI note number (MIDI 1.0
+/// Detailed Specification: 69 is A4), with A4 = 440 Hz per ISO 16:1975, rounded to three
+/// decimals: A0 (n = 21) 440 · 2^(−4) = 27.500 Hz; C4 (n = 60) 440 · 2^(−9/12) = 261.626 Hz;
+/// A4 440.000 Hz; C8 (n = 108) 440 · 2^(39/12) = 4186.009 Hz; MIDI 0 440 · 2^(−69/12) =
+/// 8.176 Hz. The values are kept to three decimals, hence the tolerance.
 #[test]
-fn equal_temperament_matches_the_piano_key_table() {
+fn equal_temperament_matches_the_formula_worked_by_hand() {
     const TABLE_PRECISION_HZ: f64 = 0.0005;
     let table = [
         (21.0, 27.500),
@@ -94,8 +98,10 @@ fn equal_temperament_matches_the_piano_key_table() {
     assert!(midi_of_frequency(Hz(0.0), a4).is_none());
 }
 
-/// Cents = 1200 · log2(f2/f1): the just major third 5/4 is 386.31 cents and the just fifth 3/2
-/// is 701.96 cents (standard tuning tables).
+/// Cents = 1200 · log2(f2/f1), the cent as defined by Ellis (1885, "On the musical scales of
+/// various nations", *Journal of the Society of Arts* 33): worked by hand, the just major
+/// third 5/4 is 1200 · log2 1.25 = 386.31 cents and the just fifth 3/2 is
+/// 1200 · log2 1.5 = 701.96 cents.
 #[test]
 fn cents_of_just_intervals() {
     assert_abs_diff_eq!(
@@ -145,8 +151,12 @@ fn spelled_pitches() {
     // Written D5 on a B-flat clarinet (<diatonic>-1, <chromatic>-2) sounds C5.
     let concert = s(Step::D, 0.0, 5).transposed(-1, -2.0);
     assert_eq!(concert.name(), "C5");
-    // Written F#5 on an E-flat alto saxophone (down a major sixth plus an octave:
-    // diatonic −12, chromatic −21) sounds A3.
+    // Saxophone transpositions (common practice): the E-flat alto sounds a major sixth lower
+    // than written (diatonic −5, chromatic −9), so written F#5 sounds A4; the E-flat
+    // baritone a major sixth plus an octave lower (diatonic −12, chromatic −21), so written
+    // F#5 sounds A3.
+    let concert = s(Step::F, 1.0, 5).transposed(-5, -9.0);
+    assert_eq!(concert.name(), "A4");
     let concert = s(Step::F, 1.0, 5).transposed(-12, -21.0);
     assert_eq!(concert.name(), "A3");
 }

@@ -1,6 +1,7 @@
 //! The tune family of the 18th-century French air "Ah! vous dirai-je, maman", sung in English
 //! as "Twinkle, Twinkle, Little Star", as the alphabet song and as "Baa, Baa, Black Sheep"
-//! (common knowledge in the trade: one melody). Encoded in `tests/fixtures/tune_family/` in
+//! (common knowledge in the trade: one melody). Written from memory (no published edition;
+//! see `tests/fixtures/README.md`) and encoded in `tests/fixtures/tune_family/` in
 //! different keys (C, D, G, F), meters (4/4, 2/2, 2/4), note values (doubled, halved) and lyric
 //! splittings (notes split for "L-M-N-O", "have you a-ny", and merged for "Q R S"). Every pair
 //! must match end to end, with bars reported; against unrelated public-domain tunes ("Frère
@@ -42,11 +43,14 @@ fn run(a: &str, b: &str) -> (Piece, Piece, Comparison) {
     (pa, pb, result)
 }
 
-/// Parsons (1975), *The Directory of Tunes and Musical Themes*: the opening of the French air
-/// as "Twinkle, Twinkle" has the code `*rururddrdrdrdurdrdrdurdrdrddrururddrdrdrd` (checked by
-/// hand against the tune; shared/references.md).
+/// The Parsons code, as defined by Parsons (1975), *The Directory of Tunes and Musical Themes*
+/// (Cambridge: Spencer Brown): `*` for the first note, then `u`, `d` or `r` for each note
+/// higher than, lower than or repeating the one before. Worked by hand from the tune as
+/// encoded in the fixture (C C G G A A G | F F E E D D C | G G F F E E D | G G F F E E D |
+/// C C G G A A G | F F E E D D C): `*rururdd rdrdrdu rdrdrdu rdrdrdd rururdd rdrdrd` less the
+/// spaces, `*rururddrdrdrdurdrdrdurdrdrddrururddrdrdrd`.
 #[test]
-fn parsons_code_of_twinkle_matches_the_directory() {
+fn parsons_code_of_twinkle_worked_by_hand() {
     let piece = load(FAMILY[0]);
     assert_eq!(
         Sequence::from_piece(&piece).parsons_code(),

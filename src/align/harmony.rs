@@ -65,7 +65,8 @@ pub struct HarmonyParams {
     pub embedding: usize,
     /// Embedding delay τ in feature frames. Default 1.
     pub delay: usize,
-    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.07.
+    /// Fraction of nearest neighbours counted as recurrent, κ. Default 0.07 (chosen on the
+    /// arrangement fixtures, checked on the demo's scores: `docs/harmony.md`).
     pub neighbours: f64,
     /// Lowest mean cosine similarity of the frames of two states for them to count as
     /// recurrent, whatever their rank. Default 0.7.

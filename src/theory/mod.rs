@@ -1,9 +1,10 @@
 //! Music theory: pitch names and spelling, intervals and transpositions in words, keys (names,
 //! tonics, scale degrees, spelling in a key), chord-symbol text and equal-temperament tuning.
 //!
-//! Numbers go in, names come out, and every table here is checked in tests against a published
-//! source (interval sizes against a theory handbook, frequencies against the piano-key table
-//! with A4 = 440 Hz per ISO 16).
+//! Numbers go in, names come out, and every table here is checked in tests against a source
+//! outside the code (interval sizes against a theory handbook, frequencies against values
+//! worked by hand from the equal-temperament formula f = 440 · 2^((n − 69)/12) with
+//! A4 = 440 Hz per ISO 16:1975).
 //!
 //! ```
 //! use collatio::theory::{pitch_name, Interval};

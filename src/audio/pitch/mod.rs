@@ -37,8 +37,9 @@
 //! # Deviations
 //! - The frame is 1900 samples (≈ 86 ms) rather than librosa's 2048, so that one FFT of 2304
 //!   points serves; the frame is centred as librosa's is. Frame lengths from 1850 to 2000
-//!   gave the same accuracy on the rendered fixtures (`tests/audio_reference.rs`); 1690
-//!   lost two violin frames. The difference function is scaled per pair (above), where
+//!   gave the same accuracy on the four rendered fixtures it was chosen on
+//!   (`tests/audio_reference.rs`); 1690 lost two violin frames. It is checked on renders it
+//!   was not chosen on, the demo melodies (same file, docs/audio.md). The difference function is scaled per pair (above), where
 //!   librosa's expansion instead keeps the energy of the last `τ` samples.
 //! - Frames at the ends of the signal are clipped to it instead of zero-padded, so that no
 //!   pair of samples compared lies outside the recording.
