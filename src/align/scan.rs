@@ -78,6 +78,9 @@ struct Lane {
     /// Pitch term by pitch class of B for the current row (16 entries so that a masked index
     /// needs no bounds check; the last four are unused).
     pitch_of_b: [i32; 16],
+    /// The same for the one and two notes of A before the current row (the first note of a
+    /// consolidated group of two or three).
+    pitch_of_b_before: [[i32; 16]; 2],
 }
 
 impl Lane {
@@ -94,6 +97,7 @@ impl Lane {
                 end: (0, 0),
             },
             pitch_of_b: [0; 16],
+            pitch_of_b_before: [[0; 16]; 2],
         }
     }
 }
@@ -120,22 +124,47 @@ pub(crate) fn scan_many<const TRACK: bool>(
     let width = m + 1;
     let mut lanes: Vec<Lane> = ts.iter().map(|&t| Lane::new(t, width)).collect();
     let mut mask: Vec<bool> = Vec::new();
-    let mut context = vec![0i32; m];
+    let mut row = RowContext {
+        pair: vec![0i32; m],
+        fragment: vec![[NEG; 2]; m],
+        consolidate: vec![[NEG; 2]; m],
+    };
     let pc_b = &scorer.b.pc;
+    let max_k = scorer.max_fragments;
     for i in 1..=n {
         let ai = i - 1;
         let masked = blocked.row_mask(ai, m, &mut mask);
-        for (bj, c) in context.iter_mut().enumerate() {
-            *c = scorer.context(ai, bj);
+        // Everything but the pitch terms, once per row for all transpositions.
+        for bj in 0..m {
+            row.pair[bj] = scorer.context(ai, bj);
+            for k in 2..=3 {
+                row.fragment[bj][k - 2] = if k <= max_k {
+                    scorer.fragment_context(ai, bj, k).unwrap_or(NEG)
+                } else {
+                    NEG
+                };
+                row.consolidate[bj][k - 2] = if k <= max_k && k <= i {
+                    scorer.consolidate_context(ai, bj, k).unwrap_or(NEG)
+                } else {
+                    NEG
+                };
+            }
         }
         for lane in &mut lanes {
-            for (pc, value) in lane.pitch_of_b.iter_mut().take(12).enumerate() {
-                *value = scorer.pitch_by_class(ai, pc as u8, lane.t);
+            for pc in 0..12u8 {
+                let p = usize::from(pc);
+                lane.pitch_of_b[p] = scorer.pitch_by_class(ai, pc, lane.t);
+                for back in 1..=2 {
+                    lane.pitch_of_b_before[back - 1][p] = match ai.checked_sub(back) {
+                        Some(first) => scorer.pitch_by_class(first, pc, lane.t),
+                        None => 0,
+                    };
+                }
             }
             if masked {
-                scan_row::<TRACK, true>(scorer, params, lane, i, &context, pc_b, &mask);
+                scan_row::<TRACK, true>(scorer, params, lane, i, &row, pc_b, &mask);
             } else {
-                scan_row::<TRACK, false>(scorer, params, lane, i, &context, pc_b, &[]);
+                scan_row::<TRACK, false>(scorer, params, lane, i, &row, pc_b, &[]);
             }
         }
     }
@@ -152,6 +181,15 @@ pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Block
         .flatten()
 }
 
+/// The transposition-free part of every score of one row of A against all of B: the pair
+/// score's interval, rhythm and metre terms, and the same for fragmentation and consolidation
+/// of two and three notes (index k − 2; [`NEG`] where the move is not allowed).
+struct RowContext {
+    pair: Vec<i32>,
+    fragment: Vec<[i32; 2]>,
+    consolidate: Vec<[i32; 2]>,
+}
+
 /// One row of the recurrence for one transposition.
 #[inline(always)]
 fn scan_row<const TRACK: bool, const MASKED: bool>(
@@ -159,16 +197,16 @@ fn scan_row<const TRACK: bool, const MASKED: bool>(
     params: &AlignParams,
     lane: &mut Lane,
     i: usize,
-    context: &[i32],
+    row: &RowContext,
     pc_b: &[u8],
     mask: &[bool],
 ) {
+    let context = &row.pair;
     let m = context.len();
     let width = m + 1;
     let open = params.gap_open;
     let extend = params.gap_extend;
     let max_k = scorer.max_fragments;
-    let t = lane.t;
     let cur = (i % 4) * width;
     let up = ((i - 1) % 4) * width;
     let ai = i - 1;
@@ -180,6 +218,7 @@ fn scan_row<const TRACK: bool, const MASKED: bool>(
         f_origin,
         best,
         pitch_of_b,
+        pitch_of_b_before,
         ..
     } = lane;
     h[cur] = 0;
@@ -242,7 +281,9 @@ fn scan_row<const TRACK: bool, const MASKED: bool>(
         // Fragmentation: a_i against b_{j-k+1..=j}.
         let run_b = (scorer.b.run[bj] as usize).min(max_k).min(j);
         for k in 2..=run_b {
-            if let Some(s) = scorer.fragment(ai, bj, k, t) {
+            let ctx = row.fragment[bj][k - 2];
+            if ctx != NEG {
+                let s = ctx + pitch_of_b[usize::from(pc_b[bj + 1 - k] & 15)];
                 let prev = h[up + j - k];
                 if prev + s > value {
                     value = prev + s;
@@ -258,15 +299,17 @@ fn scan_row<const TRACK: bool, const MASKED: bool>(
         }
         // Consolidation: a_{i-k+1..=i} against b_j.
         for k in 2..=run_a {
-            if let Some(s) = scorer.consolidate(ai, bj, k, t) {
-                let row = ((i - k) % 4) * width;
-                let prev = h[row + j - 1];
+            let ctx = row.consolidate[bj][k - 2];
+            if ctx != NEG {
+                let s = ctx + pitch_of_b_before[k - 2][usize::from(pc_b[bj] & 15)];
+                let back = ((i - k) % 4) * width;
+                let prev = h[back + j - 1];
                 if prev + s > value {
                     value = prev + s;
                     from = if !TRACK {
                         0
                     } else if prev > 0 {
-                        origin[row + j - 1]
+                        origin[back + j - 1]
                     } else {
                         pack(i - k + 1, j)
                     };

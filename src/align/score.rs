@@ -63,6 +63,10 @@ pub(crate) struct Coded {
     /// Prefix sums of inter-onset intervals (length n + 1).
     pub ioi_prefix: Vec<f64>,
     pub log_ratio: Vec<Option<f64>>,
+    /// For k = 2 and 3 (index k − 2): the log2 inter-onset ratio of the group of the k notes
+    /// ending at each note ([`Coded::group_log_ratio`]), computed once per note rather than once
+    /// per cell and transposition.
+    pub group_ratio: [Vec<Option<f64>>; 2],
 }
 
 fn interval_code(interval: Option<i32>) -> u16 {
@@ -82,6 +86,7 @@ impl Coded {
             run: Vec::with_capacity(n),
             ioi_prefix: Vec::with_capacity(n + 1),
             log_ratio: Vec::with_capacity(n),
+            group_ratio: [Vec::new(), Vec::new()],
         };
         out.ioi_prefix.push(0.0);
         let mut previous: Option<&SeqNote> = None;
@@ -99,6 +104,15 @@ impl Coded {
             out.ioi_prefix.push(total);
             out.log_ratio.push(note.log_ioi_ratio);
             previous = Some(note);
+        }
+        for k in 2..=3 {
+            out.group_ratio[k - 2] = (0..n)
+                .map(|last| {
+                    (last + 1 >= k)
+                        .then(|| out.group_log_ratio(last + 1 - k, last))
+                        .flatten()
+                })
+                .collect();
         }
         out
     }
@@ -220,11 +234,19 @@ impl Scorer {
     /// One note a_i against the `k` notes b_{j−k+1..=j} of one pitch (fragmentation), or
     /// `None` when those notes are not repeats of one pitch.
     pub fn fragment(&self, i: usize, j: usize, k: usize, t: u8) -> Option<i32> {
-        if k < 2 || (self.b.run[j] as usize) < k {
+        let first = (j + 1).checked_sub(k)?;
+        Some(self.pitch(i, first, t) + self.fragment_context(i, j, k)?)
+    }
+
+    /// The part of [`Scorer::fragment`] that does not depend on the transposition (all but the
+    /// pitch term of a_i against b_{j−k+1}).
+    #[inline(always)]
+    pub fn fragment_context(&self, i: usize, j: usize, k: usize) -> Option<i32> {
+        if !(2..=3).contains(&k) || (self.b.run[j] as usize) < k {
             return None;
         }
         let first = j + 1 - k;
-        let group = self.b.group_log_ratio(first, j);
+        let group = self.b.group_ratio[k - 2][j];
         if !durations_agree(self.a.log_ratio[i], group) {
             return None;
         }
@@ -236,19 +258,24 @@ impl Scorer {
         } else {
             0
         };
-        Some(
-            self.pitch(i, first, t) + interval + rhythm + metric
-                - self.fragment_penalty * (k as i32 - 1),
-        )
+        Some(interval + rhythm + metric - self.fragment_penalty * (k as i32 - 1))
     }
 
     /// The `k` notes a_{i−k+1..=i} of one pitch against one note b_j (consolidation).
     pub fn consolidate(&self, i: usize, j: usize, k: usize, t: u8) -> Option<i32> {
-        if k < 2 || (self.a.run[i] as usize) < k {
+        let first = (i + 1).checked_sub(k)?;
+        Some(self.pitch(first, j, t) + self.consolidate_context(i, j, k)?)
+    }
+
+    /// The part of [`Scorer::consolidate`] that does not depend on the transposition (all but
+    /// the pitch term of a_{i−k+1} against b_j).
+    #[inline(always)]
+    pub fn consolidate_context(&self, i: usize, j: usize, k: usize) -> Option<i32> {
+        if !(2..=3).contains(&k) || (self.a.run[i] as usize) < k {
             return None;
         }
         let first = i + 1 - k;
-        let group = self.a.group_log_ratio(first, i);
+        let group = self.a.group_ratio[k - 2][i];
         if !durations_agree(group, self.b.log_ratio[j]) {
             return None;
         }
@@ -260,9 +287,6 @@ impl Scorer {
         } else {
             0
         };
-        Some(
-            self.pitch(first, j, t) + interval + rhythm + metric
-                - self.fragment_penalty * (k as i32 - 1),
-        )
+        Some(interval + rhythm + metric - self.fragment_penalty * (k as i32 - 1))
     }
 }
