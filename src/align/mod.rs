@@ -28,6 +28,7 @@
 //! ```
 
 pub mod harmony;
+mod lanes;
 mod scan;
 pub(crate) mod score;
 pub mod sync;
@@ -277,13 +278,7 @@ pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
         return 0;
     }
     let scorer = Scorer::new(a, b, params);
-    let all: Vec<u8> = (0..12).collect();
-    scan::scan_many::<false>(&scorer, params, &all, &Blocked::default())
-        .into_iter()
-        .flatten()
-        .map(|hit| hit.score)
-        .max()
-        .unwrap_or(0)
+    lanes::best_over_transpositions(&scorer, params)
 }
 
 /// First and last note of one side touched by a path.

@@ -9,7 +9,7 @@ use super::score::Scorer;
 use super::AlignParams;
 
 /// Minus infinity for gap states, far from overflow when penalties are subtracted.
-const NEG: i32 = i32::MIN / 4;
+pub(crate) const NEG: i32 = i32::MIN / 4;
 
 /// The best local alignment found by a scan: score, last pair and first pair (note indices,
 /// inclusive).
@@ -124,32 +124,13 @@ pub(crate) fn scan_many<const TRACK: bool>(
     let width = m + 1;
     let mut lanes: Vec<Lane> = ts.iter().map(|&t| Lane::new(t, width)).collect();
     let mut mask: Vec<bool> = Vec::new();
-    let mut row = RowContext {
-        pair: vec![0i32; m],
-        fragment: vec![[NEG; 2]; m],
-        consolidate: vec![[NEG; 2]; m],
-    };
+    let mut row = RowContext::new(m);
     let pc_b = &scorer.b.pc;
-    let max_k = scorer.max_fragments;
     for i in 1..=n {
         let ai = i - 1;
         let masked = blocked.row_mask(ai, m, &mut mask);
         // Everything but the pitch terms, once per row for all transpositions.
-        for bj in 0..m {
-            row.pair[bj] = scorer.context(ai, bj);
-            for k in 2..=3 {
-                row.fragment[bj][k - 2] = if k <= max_k {
-                    scorer.fragment_context(ai, bj, k).unwrap_or(NEG)
-                } else {
-                    NEG
-                };
-                row.consolidate[bj][k - 2] = if k <= max_k && k <= i {
-                    scorer.consolidate_context(ai, bj, k).unwrap_or(NEG)
-                } else {
-                    NEG
-                };
-            }
-        }
+        row.fill(scorer, i);
         for lane in &mut lanes {
             for pc in 0..12u8 {
                 let p = usize::from(pc);
@@ -184,10 +165,41 @@ pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Block
 /// The transposition-free part of every score of one row of A against all of B: the pair
 /// score's interval, rhythm and metre terms, and the same for fragmentation and consolidation
 /// of two and three notes (index k − 2; [`NEG`] where the move is not allowed).
-struct RowContext {
-    pair: Vec<i32>,
-    fragment: Vec<[i32; 2]>,
-    consolidate: Vec<[i32; 2]>,
+pub(crate) struct RowContext {
+    pub pair: Vec<i32>,
+    pub fragment: Vec<[i32; 2]>,
+    pub consolidate: Vec<[i32; 2]>,
+}
+
+impl RowContext {
+    pub fn new(m: usize) -> RowContext {
+        RowContext {
+            pair: vec![0; m],
+            fragment: vec![[NEG; 2]; m],
+            consolidate: vec![[NEG; 2]; m],
+        }
+    }
+
+    /// Fills the row of A's note `i − 1` (rows count from 1).
+    pub fn fill(&mut self, scorer: &Scorer, i: usize) {
+        let ai = i - 1;
+        let max_k = scorer.max_fragments;
+        for bj in 0..self.pair.len() {
+            self.pair[bj] = scorer.context(ai, bj);
+            for k in 2..=3 {
+                self.fragment[bj][k - 2] = if k <= max_k {
+                    scorer.fragment_context(ai, bj, k).unwrap_or(NEG)
+                } else {
+                    NEG
+                };
+                self.consolidate[bj][k - 2] = if k <= max_k && k <= i {
+                    scorer.consolidate_context(ai, bj, k).unwrap_or(NEG)
+                } else {
+                    NEG
+                };
+            }
+        }
+    }
 }
 
 /// One row of the recurrence for one transposition.
