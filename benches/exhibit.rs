@@ -15,7 +15,11 @@ fn bench(c: &mut Criterion) {
         &ReadOptions::default(),
     )
     .unwrap();
-    let b = read_file(&root.join("millstream-boats.musicxml"), &ReadOptions::default()).unwrap();
+    let b = read_file(
+        &root.join("millstream-boats.musicxml"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
     let findings = collatio::pipeline::compare_works(
         a,
         b,

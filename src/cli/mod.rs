@@ -12,7 +12,7 @@ use args::{Cli, Command, CompareArgs, InspectArgs, OutputFormat};
 use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
 use collatio::pipeline::{compare_works, CorpusRef};
-use collatio::report::output::{same_file, write_atomic};
+use collatio::report::output::{check_outputs, check_replaceable, same_file, write_atomic};
 use std::io::Write;
 
 /// Success.
@@ -85,6 +85,7 @@ fn compare(args: CompareArgs) -> Result<i32> {
     } else {
         None
     };
+    check_compare_outputs(&args)?;
     let a = read_file(&args.a, &options_a)?;
     let b = read_file(&args.b, &options_b)?;
     let index = match &args.statistics.corpus {
@@ -121,20 +122,36 @@ fn compare(args: CompareArgs) -> Result<i32> {
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
 }
 
-/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically, refusing to
-/// overwrite the input.
-fn export_midi(
-    piece: &collatio::timeline::Piece,
-    input: &std::path::Path,
-    target: &std::path::Path,
-) -> Result<()> {
-    if same_file(input, target) {
-        return Err(args::UsageError(format!(
-            "--export-midi {} would overwrite the input",
-            target.display()
-        ))
-        .into());
+/// Refuses, before any file is read, output paths that name an input or each other or that are
+/// not regular files (an export folder must be a folder).
+fn check_compare_outputs(args: &CompareArgs) -> Result<()> {
+    let mut inputs = vec![args.a.as_path(), args.b.as_path()];
+    if let Some(corpus) = &args.statistics.corpus {
+        inputs.push(corpus.as_path());
     }
+    let files: Vec<std::path::PathBuf> = args
+        .exhibit
+        .pdf
+        .iter()
+        .chain(&args.exhibit.json)
+        .cloned()
+        .collect();
+    check_outputs(&inputs, &files)?;
+    if let Some(dir) = &args.exhibit.export {
+        if dir.exists() && !dir.is_dir() {
+            return Err(args::UsageError(format!(
+                "--export {} is not a folder",
+                collatio::report::format::printable(&dir.display().to_string())
+            ))
+            .into());
+        }
+    }
+    Ok(())
+}
+
+/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically (the target was
+/// checked before the input was read).
+fn export_midi(piece: &collatio::timeline::Piece, target: &std::path::Path) -> Result<()> {
     let bytes = collatio::report::export::melody_to_smf(piece)?;
     write_atomic(target, &bytes)
         .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", target.display()))?;
@@ -152,9 +169,19 @@ fn write_stdout(text: &str) -> Result<()> {
 
 fn inspect(args: InspectArgs) -> Result<i32> {
     let options: ReadOptions = args.read_options()?;
+    if let Some(target) = &args.export_midi {
+        if same_file(&args.file, target) {
+            return Err(args::UsageError(format!(
+                "--export-midi {} would overwrite the input",
+                target.display()
+            ))
+            .into());
+        }
+        check_replaceable(target)?;
+    }
     let piece = read_file(&args.file, &options)?;
     if let Some(target) = &args.export_midi {
-        export_midi(&piece, &args.file, target)?;
+        export_midi(&piece, target)?;
     }
     let text = match args.format {
         OutputFormat::Text => collatio::report::inspect::render_text(&piece),

@@ -21,9 +21,7 @@
 use super::{Limits, Problem, RawBar, RawPiece};
 use crate::audio::decode::{self, DecodeOptions, Decoded};
 use crate::audio::{self, Analysis, AnalysisOptions, AudioError};
-use crate::timeline::{
-    ChromaLayer, Format, Note, Part, TempoChange, TimeSignature, Transcription,
-};
+use crate::timeline::{ChromaLayer, Format, Note, Part, TempoChange, TimeSignature, Transcription};
 use serde::Serialize;
 use std::path::Path;
 

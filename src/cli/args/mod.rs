@@ -5,6 +5,7 @@ mod corpus;
 mod error;
 mod input;
 mod output;
+mod ranges;
 
 pub use analysis::{AlignmentArgs, HarmonyArgs, StatisticsArgs};
 pub use corpus::{BuildArgs, CorpusCommand, SearchArgs};

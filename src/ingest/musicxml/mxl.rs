@@ -38,7 +38,7 @@ fn read_entry(
     let limit = limits.max_decompressed_bytes;
     let mut data = Vec::new();
     entry
-        .take(limit + 1)
+        .take(limit.saturating_add(1))
         .read_to_end(&mut data)
         .map_err(|e| Problem::Mxl(format!("entry '{name}' cannot be decompressed: {e}")))?;
     limits.check_decompressed_bytes(data.len() as u64)?;
@@ -48,6 +48,12 @@ fn read_entry(
 /// The `full-path` of the first `<rootfile>` in `container.xml`.
 fn root_from_container(container: &[u8]) -> Result<String, Problem> {
     let (text, _) = super::decode::decode(container);
+    if super::nesting::too_deep(&text).is_some() {
+        return Err(Problem::TooDeep {
+            layer: "mxl: META-INF/container.xml",
+            limit: super::nesting::MAX_DEPTH,
+        });
+    }
     let doc = roxmltree::Document::parse(&text)
         .map_err(|e| Problem::Mxl(format!("META-INF/container.xml is not well-formed: {e}")))?;
     doc.descendants()

@@ -40,7 +40,7 @@ pub use options::{default_label, ExhibitError, ExhibitOptions, Outputs};
 pub use prepared::Exhibit;
 
 use crate::findings::Findings;
-use crate::report::output::{check_outputs, write_atomic, OutputError};
+use crate::report::output::{check_outputs, write_all, OutputError};
 use std::path::{Path, PathBuf};
 
 /// What [`write_exhibit`] wrote.
@@ -81,38 +81,41 @@ pub fn write_exhibit(
         all.push(m.clone());
     }
     check_outputs(&inputs, &all)?;
+    // Everything is rendered first and then written all together, so that a failure leaves
+    // no output of this run beside those of an earlier one.
     let mut written = Written::default();
+    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
     if let Some(path) = &outputs.json {
         let record = crate::report::compare::record(findings);
         let mut json = serde_json::to_string_pretty(&record)?;
         json.push('\n');
-        write_atomic(path, json.as_bytes())?;
-        written.files.push(path.clone());
+        files.push((path.clone(), json.into_bytes()));
+    }
+    for (((xml_path, mid_path), view), p) in export_files
+        .iter()
+        .zip(&exhibit.views)
+        .zip(&findings.passages)
+    {
+        let p = &p.passage;
+        let xml = crate::report::export::musicxml(&exhibit, p, view);
+        files.push((xml_path.clone(), xml.into_bytes()));
+        files.push((
+            mid_path.clone(),
+            crate::report::export::midi(&exhibit, p, view)?,
+        ));
+    }
+    if let Some(path) = &outputs.pdf {
+        let (bytes, pages) = crate::report::pdf::render(&exhibit)?;
+        files.push((path.clone(), bytes));
+        written.pdf_pages = pages;
     }
     if let Some(dir) = &outputs.export_dir {
         std::fs::create_dir_all(dir).map_err(|source| OutputError::Io {
             path: dir.clone(),
             source,
         })?;
-        for (((xml_path, mid_path), view), p) in export_files
-            .iter()
-            .zip(&exhibit.views)
-            .zip(&findings.passages)
-        {
-            let p = &p.passage;
-            let xml = crate::report::export::musicxml(&exhibit, p, view);
-            write_atomic(xml_path, xml.as_bytes())?;
-            written.files.push(xml_path.clone());
-            let midi = crate::report::export::midi(&exhibit, p, view)?;
-            write_atomic(mid_path, &midi)?;
-            written.files.push(mid_path.clone());
-        }
     }
-    if let Some(path) = &outputs.pdf {
-        let (bytes, pages) = crate::report::pdf::render(&exhibit)?;
-        write_atomic(path, &bytes)?;
-        written.files.push(path.clone());
-        written.pdf_pages = pages;
-    }
+    write_all(&files)?;
+    written.files = files.into_iter().map(|(path, _)| path).collect();
     Ok(written)
 }

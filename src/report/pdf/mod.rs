@@ -40,7 +40,10 @@ pub const TEMPLATES: [(&str, &str); 10] = [
         "limitations",
         include_str!("../../../templates/limitations.tera"),
     ),
-    ("use-and-limits", include_str!("../../../templates/use-and-limits.tera")),
+    (
+        "use-and-limits",
+        include_str!("../../../templates/use-and-limits.tera"),
+    ),
     ("running", include_str!("../../../templates/running.tera")),
 ];
 

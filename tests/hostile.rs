@@ -1,0 +1,370 @@
+//! Hostile and huge inputs through the real executable: crafted files, damaged indexes, absurd
+//! option values and odd output paths. Every case ends in a clear message naming the file and
+//! the problem with a documented exit code (2 usage, 3 input), never in a panic or an abort.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
+mod common;
+
+use std::io::Write;
+use std::path::Path;
+
+/// Runs collatio: (exit code, stdout, stderr); a signal (abort) gives -1.
+fn run(args: &[&str]) -> (i32, String, String) {
+    common::run_cli(args)
+}
+
+fn write(dir: &Path, name: &str, bytes: &[u8]) -> String {
+    let path = dir.join(name);
+    std::fs::write(&path, bytes).unwrap();
+    path.display().to_string()
+}
+
+/// Checks an error exit: the code, the file named and the phrase, and no panic.
+fn assert_error(result: &(i32, String, String), code: i32, file: &str, phrase: &str) {
+    let (got, _, stderr) = result;
+    assert_eq!(*got, code, "stderr was {stderr}");
+    assert!(stderr.contains(file), "the file is not named: {stderr}");
+    assert!(stderr.contains(phrase), "expected '{phrase}' in: {stderr}");
+    assert!(!stderr.contains("panicked"), "{stderr}");
+}
+
+fn fixture(name: &str) -> String {
+    common::fixture(name).display().to_string()
+}
+
+fn nested(levels: usize, closed: bool) -> String {
+    let mut text = String::from("<score-partwise version=\"4.0\">");
+    text.push_str(&"<part>".repeat(levels));
+    if closed {
+        text.push_str(&"</part>".repeat(levels));
+        text.push_str("</score-partwise>");
+    }
+    text
+}
+
+#[test]
+fn deeply_nested_musicxml_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let deep = write(dir.path(), "deep.musicxml", nested(20_000, true).as_bytes());
+    assert_error(&run(&["inspect", &deep]), 3, &deep, "nesting too deep");
+    let open = write(
+        dir.path(),
+        "open.musicxml",
+        nested(1_000_000, false).as_bytes(),
+    );
+    assert_error(&run(&["inspect", &open]), 3, &open, "nesting too deep");
+}
+
+#[test]
+fn deeply_nested_container_of_an_mxl_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("deep.mxl");
+    {
+        let mut zip = zip::ZipWriter::new(std::fs::File::create(&path).unwrap());
+        let options = zip::write::SimpleFileOptions::default()
+            .compression_method(zip::CompressionMethod::Deflated);
+        zip.start_file("META-INF/container.xml", options).unwrap();
+        zip.write_all(b"<container>").unwrap();
+        zip.write_all("<rootfiles>".repeat(100_000).as_bytes())
+            .unwrap();
+        zip.start_file("score.musicxml", options).unwrap();
+        zip.write_all(
+            std::fs::read(fixture("ties_chords.musicxml"))
+                .unwrap()
+                .as_slice(),
+        )
+        .unwrap();
+        zip.finish().unwrap();
+    }
+    let p = path.display().to_string();
+    assert_error(
+        &run(&["inspect", &p]),
+        3,
+        &p,
+        "mxl: META-INF/container.xml: nesting too deep",
+    );
+}
+
+/// `corpus build` reads on worker threads with smaller stacks: a deep file is skipped with a
+/// warning and the index of the other files is written (exit 1).
+#[test]
+fn corpus_build_skips_a_deeply_nested_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let folder = dir.path().join("corpus");
+    std::fs::create_dir(&folder).unwrap();
+    std::fs::copy(
+        fixture("tune_family/twinkle_c_4-4.musicxml"),
+        folder.join("good.musicxml"),
+    )
+    .unwrap();
+    std::fs::write(folder.join("deep.musicxml"), nested(5_000, true)).unwrap();
+    let index = dir.path().join("c.idx").display().to_string();
+    let (code, _, stderr) = run(&[
+        "corpus",
+        "build",
+        &folder.display().to_string(),
+        "-o",
+        &index,
+    ]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(
+        stderr.contains("deep.musicxml") && stderr.contains("nesting too deep"),
+        "{stderr}"
+    );
+    assert!(stderr.contains("indexed 1 melodies"), "{stderr}");
+    assert!(Path::new(&index).is_file());
+}
+
+/// An index edited and given a fresh checksum: every field is checked on load.
+#[test]
+fn edited_index_is_corrupt_not_a_crash() {
+    use collatio::corpus::{CorpusIndex, MelodyEntry};
+    let piece = collatio::ingest::read_file(
+        &common::fixture("tune_family/twinkle_c_4-4.musicxml"),
+        &collatio::ingest::ReadOptions::default(),
+    )
+    .unwrap();
+    let good = CorpusIndex::build(vec![MelodyEntry::from_piece(&piece, "twinkle".into())]);
+    assert!(CorpusIndex::from_bytes(&good.to_bytes().unwrap()).is_ok());
+    type Edit = Box<dyn Fn(&mut CorpusIndex)>;
+    let edits: Vec<(&str, Edit)> = vec![
+        ("figure length 0", Box::new(|i| i.ngram = 0)),
+        (
+            "posting out of range",
+            Box::new(|i| i.postings[0].1 = vec![7]),
+        ),
+        (
+            "posting with no melodies",
+            Box::new(|i| i.postings[0].1.clear()),
+        ),
+        ("no melodies", Box::new(|i| i.melodies.clear())),
+        ("figures out of order", Box::new(|i| i.postings.reverse())),
+        (
+            "note in no bar",
+            Box::new(|i| i.melodies[0].notes[0].bar = 9_999),
+        ),
+        (
+            "pitch",
+            Box::new(|i| i.melodies[0].notes[0].pitch = f32::NAN),
+        ),
+        (
+            "duration",
+            Box::new(|i| i.melodies[0].notes[0].duration = -1.0),
+        ),
+        (
+            "meter",
+            Box::new(|i| i.melodies[0].bars[0].time_signature = (4, 0)),
+        ),
+        ("key", Box::new(|i| i.melodies[0].key = Some((-128, false)))),
+    ];
+    let dir = tempfile::tempdir().unwrap();
+    let query = fixture("tune_family/twinkle_c_4-4.musicxml");
+    for (what, edit) in edits {
+        let mut index = good.clone();
+        edit(&mut index);
+        let bytes = index.to_bytes().unwrap();
+        let err = CorpusIndex::from_bytes(&bytes).expect_err(what);
+        assert!(err.to_string().contains("corrupt index"), "{what}: {err}");
+        let path = write(dir.path(), "edited.idx", &bytes);
+        assert_error(
+            &run(&["search", &query, "--corpus", &path]),
+            3,
+            &path,
+            "corrupt index",
+        );
+    }
+}
+
+/// Numeric options are checked by the parser against a range (exit 2), never overflow later.
+#[test]
+fn numeric_options_out_of_range_are_usage_errors() {
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let b = fixture("tune_family/baa_baa_black_sheep_f_2-4.musicxml");
+    let cases: [&[&str]; 9] = [
+        &["--gap-open", "2147483647", "--gap-extend", "2147483647"],
+        &["--pitch-match", "-2147483648"],
+        &["--min-notes", "0"],
+        &["--harmony-max-p", "NaN"],
+        &["--a4", "1e300"],
+        &["--tempo", "0"],
+        &["--max-file-mb", "18446744073709551615"],
+        &["--max-notes", "0"],
+        &["--max-passages", "99999999999"],
+    ];
+    for extra in cases {
+        let mut args = vec!["compare", a.as_str(), b.as_str()];
+        args.extend_from_slice(extra);
+        let (code, _, stderr) = run(&args);
+        assert_eq!(code, 2, "{extra:?}: {stderr}");
+        assert!(stderr.contains(extra[0]), "{extra:?}: {stderr}");
+        assert!(!stderr.contains("panicked"), "{stderr}");
+    }
+    // The largest file size allowed is not read as "empty" by an overflow.
+    let (code, _, stderr) = run(&["inspect", &a, "--max-file-mb", "1048576"]);
+    assert_eq!(code, 0, "{stderr}");
+}
+
+/// Absurd values in one bar of the demo score are refused with a warning naming the bar (exit 1
+/// with the rest read), never read as they stand.
+#[test]
+fn absurd_musicxml_values_are_warned_with_their_bar() {
+    let demo = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("demo/pierside-lamps.musicxml"),
+    )
+    .unwrap();
+    let cases = [
+        ("<octave>4</octave>", "<octave>2147483647</octave>", "<octave> 2147483647"),
+        ("<octave>4</octave>", "<alter>1e300</alter><octave>4</octave>", "<alter> 1e300"),
+        ("<sound tempo=\"96\"/>", "<sound tempo=\"1e-300\"/>", "tempo 1e-300"),
+        ("<sound tempo=\"96\"/>", "<sound tempo=\"0\"/>", "tempo 0"),
+        ("<fifths>1</fifths>", "<fifths>2000000000</fifths>", "<fifths> 2e9"),
+        (
+            "<divisions>4</divisions>",
+            "<divisions>4</divisions><transpose><diatonic>0</diatonic><chromatic>2000000000</chromatic></transpose>",
+            "<transpose> of 2e9 semitones",
+        ),
+    ];
+    let dir = tempfile::tempdir().unwrap();
+    for (from, to, phrase) in cases {
+        let text = demo.replacen(from, to, 1);
+        assert_ne!(text, demo, "{from} is in the demo");
+        let path = write(dir.path(), "edited.musicxml", text.as_bytes());
+        let (code, stdout, stderr) = run(&["inspect", &path]);
+        assert_eq!(code, 1, "{phrase}: {stderr}");
+        assert!(stderr.contains(&path), "{stderr}");
+        assert!(
+            stderr.contains("measure 0:") && stderr.contains(phrase),
+            "{phrase}: {stderr}"
+        );
+        assert!(
+            !stdout.contains("infx") && !stdout.contains("NaN"),
+            "{phrase}: {stdout}"
+        );
+    }
+}
+
+fn midi_with_meta(meta: &[u8]) -> Vec<u8> {
+    // SMF 1.0 header: MThd, length 6, format 0, one track, 96 ticks per quarter.
+    let mut bytes = b"MThd\0\0\0\x06\0\0\0\x01\0\x60MTrk".to_vec();
+    let mut track = vec![0x00];
+    track.extend_from_slice(meta);
+    track.extend_from_slice(&[
+        0x00, 0x90, 60, 100, 0x60, 0x80, 60, 0, 0x00, 0xFF, 0x2F, 0x00,
+    ]);
+    bytes.extend_from_slice(&(track.len() as u32).to_be_bytes());
+    bytes.extend_from_slice(&track);
+    bytes
+}
+
+/// SMF 1.0: Set Tempo is FF 51 03 and 24 bits of µs per quarter note (0 is no tempo); Key
+/// Signature is FF 59 02 sf mi with sf from -7 to 7.
+#[test]
+fn absurd_midi_tempo_and_key_are_warned() {
+    let dir = tempfile::tempdir().unwrap();
+    let cases: [(&[u8], &str); 2] = [
+        (&[0xFF, 0x51, 0x03, 0, 0, 0], "Set Tempo of 0"),
+        (&[0xFF, 0x59, 0x02, 0x80, 0], "key signature of -128"),
+    ];
+    for (meta, phrase) in cases {
+        let path = write(dir.path(), "odd.mid", &midi_with_meta(meta));
+        let (code, stdout, stderr) = run(&["inspect", &path]);
+        assert_eq!(code, 1, "{phrase}: {stderr}");
+        assert!(
+            stderr.contains(&path) && stderr.contains(phrase),
+            "{stderr}"
+        );
+        assert!(stderr.contains("track 1, tick 0"), "{stderr}");
+        assert!(
+            !stdout.contains("infx") && !stdout.contains("NaN"),
+            "{stdout}"
+        );
+    }
+}
+
+/// Runs collatio, failing the test (and ending the process) if it has not finished in a minute:
+/// for inputs that used to block forever.
+fn run_bounded(args: &[&str]) -> (i32, String, String) {
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_collatio"))
+        .args(args)
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let start = std::time::Instant::now();
+    while child.try_wait().unwrap().is_none() {
+        if start.elapsed() > std::time::Duration::from_secs(60) {
+            child.kill().unwrap();
+            panic!("collatio {args:?} did not finish within a minute");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(50));
+    }
+    let out = child.wait_with_output().unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn mkfifo(path: &Path) {
+    let status = std::process::Command::new("mkfifo")
+        .arg(path)
+        .status()
+        .unwrap();
+    assert!(status.success());
+}
+
+/// A named pipe or a device where a file is expected is refused at once, and skipped inside a
+/// corpus folder.
+#[cfg(unix)]
+#[test]
+fn inputs_that_are_not_regular_files_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("pipe.mid");
+    mkfifo(&fifo);
+    let fifo = fifo.display().to_string();
+    let query = fixture("tune_family/twinkle_c_4-4.musicxml");
+    assert_error(
+        &run_bounded(&["inspect", &fifo]),
+        3,
+        &fifo,
+        "not a regular file",
+    );
+    assert_error(
+        &run_bounded(&["compare", &query, &fifo]),
+        3,
+        &fifo,
+        "not a regular file",
+    );
+    assert_error(
+        &run_bounded(&["search", &query, "--corpus", &fifo]),
+        3,
+        &fifo,
+        "not a regular file",
+    );
+    assert_error(
+        &run_bounded(&["search", &query, "--corpus", "/dev/zero"]),
+        3,
+        "/dev/zero",
+        "not a regular file",
+    );
+
+    let folder = dir.path().join("corpus");
+    std::fs::create_dir(&folder).unwrap();
+    std::fs::copy(&query, folder.join("good.musicxml")).unwrap();
+    mkfifo(&folder.join("pipe.mid"));
+    let index = dir.path().join("c.idx").display().to_string();
+    let (code, _, stderr) = run_bounded(&[
+        "corpus",
+        "build",
+        &folder.display().to_string(),
+        "-o",
+        &index,
+    ]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(
+        stderr.contains("pipe.mid") && stderr.contains("not a regular file"),
+        "{stderr}"
+    );
+    assert!(stderr.contains("indexed 1 melodies"), "{stderr}");
+}
