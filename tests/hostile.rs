@@ -368,3 +368,179 @@ fn inputs_that_are_not_regular_files_are_refused() {
     );
     assert!(stderr.contains("indexed 1 melodies"), "{stderr}");
 }
+
+/// Output paths are checked before any input is read: a refusal comes first even when an input
+/// is unreadable (exit 2, not 3), and nothing is written.
+#[test]
+fn outputs_are_checked_before_any_work() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let missing = dir.path().join("missing.mid").display().to_string();
+    let (code, _, stderr) = run(&["compare", &a, &missing, "--pdf", &a]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("is an input file"), "{stderr}");
+
+    // A JSON file beside an export "folder" that is a file: refused before any work, and the
+    // JSON is not written either.
+    let json = dir.path().join("findings.json");
+    let not_a_folder = write(dir.path(), "exports", b"a file");
+    let (code, _, stderr) = run(&[
+        "compare",
+        &a,
+        &missing,
+        "--json",
+        &json.display().to_string(),
+        "--export",
+        &not_a_folder,
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("is not a folder"), "{stderr}");
+    assert!(!json.exists());
+
+    let (code, _, stderr) = run(&["inspect", &missing, "--export-midi", &missing]);
+    assert_eq!(code, 2, "{stderr}");
+}
+
+/// An output that is a symbolic link, a device or a folder is never replaced by a file.
+#[cfg(unix)]
+#[test]
+fn outputs_that_are_not_regular_files_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let b = fixture("tune_family/baa_baa_black_sheep_f_2-4.musicxml");
+    let victim = write(dir.path(), "victim.txt", b"keep me");
+    let link = dir.path().join("exhibit.pdf");
+    std::os::unix::fs::symlink(&victim, &link).unwrap();
+    let link = link.display().to_string();
+    let folder = dir.path().display().to_string();
+    for (flag, target, kind) in [
+        ("--pdf", link.as_str(), "a symbolic link"),
+        ("--json", "/dev/null", "a device"),
+        ("--json", folder.as_str(), "a folder"),
+    ] {
+        let (code, _, stderr) = run(&["compare", &a, &b, flag, target]);
+        assert_eq!(code, 2, "{target}: {stderr}");
+        assert!(stderr.contains(target) && stderr.contains(kind), "{stderr}");
+    }
+    assert_eq!(std::fs::read(&victim).unwrap(), b"keep me");
+    assert!(std::fs::symlink_metadata(&link)
+        .unwrap()
+        .file_type()
+        .is_symlink());
+    let null = std::fs::metadata("/dev/null").unwrap();
+    assert!(!null.file_type().is_file());
+
+    let (code, _, stderr) = run(&["inspect", &a, "--export-midi", &link]);
+    assert_eq!(code, 2, "{stderr}");
+    assert_eq!(std::fs::read(&victim).unwrap(), b"keep me");
+}
+
+/// Writing leaves only the outputs: no temporary file beside them.
+#[test]
+fn outputs_leave_no_temporary_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let b = fixture("tune_family/twinkle_d_2-2_doubled.musicxml");
+    let json = dir.path().join("f.json").display().to_string();
+    let pdf = dir.path().join("f.pdf").display().to_string();
+    let (code, _, stderr) = run(&["compare", &a, &b, "--json", &json, "--pdf", &pdf]);
+    assert_eq!(code, 0, "{stderr}");
+    let mut names: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(names, ["f.json", "f.pdf"]);
+}
+
+/// `corpus build -o` naming a corpus file is the same usage error (exit 2) as in compare; `-o -`
+/// writes the index to standard output.
+#[test]
+fn corpus_build_outputs() {
+    let dir = tempfile::tempdir().unwrap();
+    let folder = dir.path().join("corpus");
+    std::fs::create_dir(&folder).unwrap();
+    let inside = folder.join("good.musicxml");
+    std::fs::copy(fixture("tune_family/twinkle_c_4-4.musicxml"), &inside).unwrap();
+    let folder = folder.display().to_string();
+    let inside = inside.display().to_string();
+    let (code, _, stderr) = run(&["corpus", "build", &folder, "-o", &inside]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("is an input file"), "{stderr}");
+
+    let out = common::run_collatio(&["corpus", "build", &folder, "-o", "-"]);
+    assert_eq!(out.status.code(), Some(0));
+    assert!(out.stdout.starts_with(collatio::corpus::MAGIC));
+    assert!(collatio::corpus::CorpusIndex::from_bytes(&out.stdout).is_ok());
+}
+
+/// An empty corpus is announced when it is built and in every search.
+#[test]
+fn empty_corpus_is_announced() {
+    let dir = tempfile::tempdir().unwrap();
+    let folder = dir.path().join("empty");
+    std::fs::create_dir(&folder).unwrap();
+    let index = dir.path().join("empty.idx").display().to_string();
+    let (code, _, stderr) = run(&[
+        "corpus",
+        "build",
+        &folder.display().to_string(),
+        "-o",
+        &index,
+    ]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(
+        stderr.contains("no MIDI, MusicXML or audio files"),
+        "{stderr}"
+    );
+    let query = fixture("tune_family/twinkle_c_4-4.musicxml");
+    for format in ["text", "json"] {
+        let (code, _, stderr) = run(&["search", &query, "--corpus", &index, "--format", format]);
+        assert_eq!(code, 1, "{stderr}");
+        assert!(
+            stderr.contains(&index) && stderr.contains("holds no melodies"),
+            "{stderr}"
+        );
+    }
+}
+
+/// Terminal escape sequences in a track name and in a file name are shown escaped, never sent
+/// raw to the terminal (SMF 1.0: FF 03 is the Sequence/Track Name meta event).
+#[test]
+fn control_characters_are_escaped_in_everything_printed() {
+    let dir = tempfile::tempdir().unwrap();
+    let name = b"\x1b[2J\x1b[31mFAKE";
+    let mut meta = vec![0xFF, 0x03, name.len() as u8];
+    meta.extend_from_slice(name);
+    let path = write(dir.path(), "named.mid", &midi_with_meta(&meta));
+    let (code, stdout, stderr) = run(&["inspect", &path]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(!stdout.contains('\x1b'), "{stdout}");
+    assert!(stdout.contains("\\u{1b}[2J"), "{stdout}");
+
+    let odd = write(dir.path(), "odd\x1b[31m.mid", b"MThd\0\0");
+    let (code, stdout, stderr) = run(&["inspect", &odd]);
+    assert_eq!(code, 3, "{stderr}");
+    assert!(
+        !stderr.contains('\x1b') && !stdout.contains('\x1b'),
+        "{stderr}"
+    );
+    assert!(stderr.contains("odd\\u{1b}[31m.mid"), "{stderr}");
+}
+
+/// SOURCE_DATE_EPOCH beyond the last date a PDF can hold is refused (exit 2) before any work.
+#[test]
+fn source_date_epoch_out_of_range_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let pdf = dir.path().join("x.pdf").display().to_string();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_collatio"))
+        .args(["compare", &a, &a, "--pdf", &pdf])
+        .env("SOURCE_DATE_EPOCH", "253402300800")
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("SOURCE_DATE_EPOCH"), "{stderr}");
+    assert!(!Path::new(&pdf).exists());
+}

@@ -6,7 +6,6 @@ use collatio::corpus::index::MAX_INDEX_BYTES;
 use collatio::corpus::{build_from_dir, corpus_files, CorpusIndex, IndexSource};
 use collatio::ingest::{read_file, ReadOptions};
 use collatio::pipeline::{search as search_corpus, CorpusRef, SearchSettings};
-use collatio::report::format::printable;
 use collatio::report::output::{check_outputs, write_atomic};
 use std::io::IsTerminal;
 use std::io::Write;
@@ -56,9 +55,9 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
         check_outputs(&inputs, std::slice::from_ref(&args.output))?;
     }
     if files.is_empty() {
-        eprintln!(
+        say!(
             "collatio: warning: {}: no MIDI, MusicXML or audio files found; the index will be empty",
-            printable(&args.dir.display().to_string())
+            args.dir.display()
         );
     }
     let bar = if std::io::stderr().is_terminal() {
@@ -89,27 +88,25 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
     } else {
         write_atomic(&args.output, &bytes)?;
     }
-    eprintln!(
+    say!(
         "collatio: indexed {} melodies from {} files into {} ({} bytes, {} figures)",
         built.index.melodies.len(),
         built.files,
         if to_stdout {
             "standard output".to_string()
         } else {
-            printable(&args.output.display().to_string())
+            args.output.display().to_string()
         },
         bytes.len(),
         built.index.postings.len()
     );
     if built.index.melodies.is_empty() {
-        eprintln!(
-            "collatio: warning: the index holds no melodies; searches in it will find nothing"
-        );
+        say!("collatio: warning: the index holds no melodies; searches in it will find nothing");
     }
     if !built.skipped.is_empty() {
-        eprintln!("collatio: {} files skipped:", built.skipped.len());
+        say!("collatio: {} files skipped:", built.skipped.len());
         for s in &built.skipped {
-            eprintln!("  {}", printable(s));
+            say!("  {s}");
         }
         return Ok(super::EXIT_PARTIAL);
     }
@@ -148,9 +145,9 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         source: &source,
     };
     if index.melodies.is_empty() {
-        eprintln!(
+        say!(
             "collatio: warning: {}: the corpus index holds no melodies; nothing can match",
-            printable(&args.corpus.display().to_string())
+            args.corpus.display()
         );
     }
     let found = search_corpus(query, corpus, &settings);
@@ -163,5 +160,9 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         OutputFormat::Text => collatio::report::search::render_text(&found),
     };
     super::write_stdout(&text)?;
-    Ok(super::EXIT_OK)
+    Ok(if index.melodies.is_empty() {
+        super::EXIT_PARTIAL
+    } else {
+        super::EXIT_OK
+    })
 }

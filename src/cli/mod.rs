@@ -4,6 +4,14 @@
 //! Exit codes: 0 success; 1 the command ran but some input was unreadable or partly skipped;
 //! 2 usage error; 3 input error (nothing could be read).
 
+/// Prints one line to standard error with control characters escaped: file names, titles,
+/// track names and index paths come from outside and may hold terminal escape sequences.
+macro_rules! say {
+    ($($arg:tt)*) => {
+        eprintln!("{}", collatio::report::format::printable(&format!($($arg)*)))
+    };
+}
+
 mod args;
 mod corpus;
 
@@ -38,9 +46,9 @@ pub fn main() -> i32 {
         Ok(code) => code,
         Err(error) => {
             let code = exit_code_of(&error);
-            eprintln!("collatio: error: {error}");
+            say!("collatio: error: {error}");
             for cause in error.chain().skip(1) {
-                eprintln!("  caused by: {cause}");
+                say!("  caused by: {cause}");
             }
             code
         }
@@ -99,7 +107,7 @@ fn compare(args: CompareArgs) -> Result<i32> {
     if let Some((options, outputs)) = &exhibit {
         let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;
         for path in &written.files {
-            eprintln!("collatio: wrote {}", path.display());
+            say!("collatio: wrote {}", path.display());
         }
     }
     let text = match args.format {
@@ -115,7 +123,7 @@ fn compare(args: CompareArgs) -> Result<i32> {
     for (path, piece) in [(&args.a, &findings.a), (&args.b, &findings.b)] {
         for warning in &piece.warnings {
             warned = true;
-            eprintln!("collatio: warning: {}: {warning}", path.display());
+            say!("collatio: warning: {}: {warning}", path.display());
         }
     }
     write_stdout(&text)?;
@@ -139,11 +147,9 @@ fn check_compare_outputs(args: &CompareArgs) -> Result<()> {
     check_outputs(&inputs, &files)?;
     if let Some(dir) = &args.exhibit.export {
         if dir.exists() && !dir.is_dir() {
-            return Err(args::UsageError(format!(
-                "--export {} is not a folder",
-                collatio::report::format::printable(&dir.display().to_string())
-            ))
-            .into());
+            return Err(
+                args::UsageError(format!("--export {} is not a folder", dir.display())).into(),
+            );
         }
     }
     Ok(())
@@ -158,8 +164,11 @@ fn export_midi(piece: &collatio::timeline::Piece, target: &std::path::Path) -> R
     Ok(())
 }
 
-/// Writes to standard output; a closed pipe (`| head`) is not an error.
+/// Writes a report to standard output with control characters other than line breaks and tabs
+/// escaped ([`collatio::report::format::printable_text`]); a closed pipe (`| head`) is not an
+/// error.
 fn write_stdout(text: &str) -> Result<()> {
+    let text = collatio::report::format::printable_text(text);
     let mut stdout = std::io::stdout().lock();
     match stdout.write_all(text.as_bytes()) {
         Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
@@ -193,7 +202,7 @@ fn inspect(args: InspectArgs) -> Result<i32> {
         }
     };
     for warning in &piece.warnings {
-        eprintln!("collatio: warning: {}: {warning}", args.file.display());
+        say!("collatio: warning: {}: {warning}", args.file.display());
     }
     write_stdout(&text)?;
     Ok(if piece.warnings.is_empty() {
