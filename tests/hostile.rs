@@ -544,3 +544,33 @@ fn source_date_epoch_out_of_range_is_refused() {
     assert!(stderr.contains("SOURCE_DATE_EPOCH"), "{stderr}");
     assert!(!Path::new(&pdf).exists());
 }
+
+/// The committed crafted inputs (`tests/fixtures/hostile/`, see its README): each gives the
+/// outcome listed there, with the file named.
+#[test]
+fn committed_hostile_fixtures() {
+    let cases = [
+        ("midi_tempo_zero.mid", 1, "Set Tempo of 0"),
+        ("midi_key_minus_128.mid", 1, "key signature of -128"),
+        ("midi_track_name_escapes.mid", 0, ""),
+        ("octave_2147483647.musicxml", 1, "<octave> 2147483647"),
+        ("alter_1e300.musicxml", 1, "<alter> 1e300"),
+        ("tempo_1e-300.musicxml", 1, "tempo 1e-300"),
+        ("fifths_2e9.musicxml", 1, "<fifths> 2e9"),
+        ("transpose_2e9.musicxml", 1, "<transpose> of 2e9"),
+        ("nested_300.musicxml", 3, "nesting too deep"),
+        ("entity_markup_deep.musicxml", 3, "nesting too deep"),
+        ("container_nested_300.mxl", 3, "nesting too deep"),
+    ];
+    for (name, code, phrase) in cases {
+        let path = fixture(&format!("hostile/{name}"));
+        let (got, stdout, stderr) = run(&["inspect", &path]);
+        assert_eq!(got, code, "{name}: {stderr}");
+        if code != 0 {
+            assert!(stderr.contains(&path), "{name}: {stderr}");
+        }
+        assert!(stderr.contains(phrase), "{name}: {stderr}");
+        assert!(!stdout.contains('\x1b') && !stderr.contains('\x1b'), "{name}");
+        assert!(!stderr.contains("panicked"), "{stderr}");
+    }
+}
