@@ -570,7 +570,45 @@ fn committed_hostile_fixtures() {
             assert!(stderr.contains(&path), "{name}: {stderr}");
         }
         assert!(stderr.contains(phrase), "{name}: {stderr}");
-        assert!(!stdout.contains('\x1b') && !stderr.contains('\x1b'), "{name}");
+        assert!(
+            !stdout.contains('\x1b') && !stderr.contains('\x1b'),
+            "{name}"
+        );
         assert!(!stderr.contains("panicked"), "{stderr}");
     }
+}
+
+/// 200,000 attributes on one element and a 5 KB entity used 5,000 times are refused before the
+/// tree is built, quickly.
+#[test]
+fn huge_attribute_lists_and_entity_expansions_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let attrs: String = (0..200_000).map(|k| format!(" a{k}=\"1\"")).collect();
+    let many = write(
+        dir.path(),
+        "attributes.musicxml",
+        format!("<score-partwise version=\"4.0\"{attrs}></score-partwise>").as_bytes(),
+    );
+    assert_error(
+        &run_bounded(&["inspect", &many]),
+        3,
+        &many,
+        "more than 1000 attributes",
+    );
+    let value = "x".repeat(5_000);
+    let expanding = write(
+        dir.path(),
+        "entities.musicxml",
+        format!(
+            "<!DOCTYPE score-partwise [<!ENTITY e \"{value}\">]><score-partwise version=\"4.0\"><work><work-title>{}</work-title></work></score-partwise>",
+            "&e;".repeat(5_000)
+        )
+        .as_bytes(),
+    );
+    assert_error(
+        &run_bounded(&["inspect", &expanding]),
+        3,
+        &expanding,
+        "entity references could expand",
+    );
 }

@@ -57,6 +57,15 @@ pub enum Problem {
         /// The most levels allowed.
         limit: usize,
     },
+    /// XML beyond another of the limits checked before parsing (attributes per element,
+    /// entity expansion).
+    #[error("{layer}: {what}")]
+    XmlLimit {
+        /// The layer and document (`musicxml`, `mxl: META-INF/container.xml`).
+        layer: &'static str,
+        /// What is beyond the limit.
+        what: String,
+    },
     /// A compressed MusicXML container that cannot be opened.
     #[error("mxl: {0}")]
     Mxl(String),

@@ -22,7 +22,7 @@ pub(crate) mod decode;
 mod layout;
 mod measure;
 mod mxl;
-pub(crate) mod nesting;
+pub(crate) mod prescan;
 
 use super::{Limits, Problem, RawPiece};
 use measure::{MeasureContent, PartState};
@@ -60,12 +60,7 @@ struct PartSource<'a, 'input> {
 }
 
 fn read_text(text: &str, limits: &Limits, unfold: bool) -> Result<RawPiece, Problem> {
-    if nesting::too_deep(text).is_some() {
-        return Err(Problem::TooDeep {
-            layer: "musicxml",
-            limit: nesting::MAX_DEPTH,
-        });
-    }
+    prescan::check(text, "musicxml")?;
     let options = roxmltree::ParsingOptions {
         allow_dtd: true,
         ..roxmltree::ParsingOptions::default()

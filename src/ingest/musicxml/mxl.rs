@@ -48,12 +48,7 @@ fn read_entry(
 /// The `full-path` of the first `<rootfile>` in `container.xml`.
 fn root_from_container(container: &[u8]) -> Result<String, Problem> {
     let (text, _) = super::decode::decode(container);
-    if super::nesting::too_deep(&text).is_some() {
-        return Err(Problem::TooDeep {
-            layer: "mxl: META-INF/container.xml",
-            limit: super::nesting::MAX_DEPTH,
-        });
-    }
+    super::prescan::check(&text, "mxl: META-INF/container.xml")?;
     let doc = roxmltree::Document::parse(&text)
         .map_err(|e| Problem::Mxl(format!("META-INF/container.xml is not well-formed: {e}")))?;
     doc.descendants()
