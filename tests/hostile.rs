@@ -612,3 +612,40 @@ fn huge_attribute_lists_and_entity_expansions_are_refused() {
         "entity references could expand",
     );
 }
+
+/// A thousand parts without `<divisions>` give a few warning lines and a count, not a thousand
+/// lines; the JSON record keeps every warning.
+#[test]
+fn repeated_warnings_are_summarised() {
+    let parts = 1_000;
+    let mut text = String::from("<score-partwise version=\"4.0\"><part-list>");
+    for k in 1..=parts {
+        text.push_str(&format!(
+            "<score-part id=\"P{k}\"><part-name>p</part-name></score-part>"
+        ));
+    }
+    text.push_str("</part-list>");
+    for k in 1..=parts {
+        text.push_str(&format!(
+            "<part id=\"P{k}\"><measure number=\"1\"><note><pitch><step>C</step><octave>4</octave></pitch><duration>1</duration></note></measure></part>"
+        ));
+    }
+    text.push_str("</score-partwise>");
+    let dir = tempfile::tempdir().unwrap();
+    let path = write(dir.path(), "parts.musicxml", text.as_bytes());
+    let (code, stdout, stderr) = run(&["inspect", &path]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(stderr.lines().count() < 10, "{stderr}");
+    assert!(
+        stderr.contains("997 more warnings like the one above (1000 in all)"),
+        "{stderr}"
+    );
+    assert!(
+        stdout.lines().count() < 200 + parts,
+        "{}",
+        stdout.lines().count()
+    );
+    let (_, json, _) = run(&["inspect", &path, "--format", "json"]);
+    let record: serde_json::Value = serde_json::from_str(&json).unwrap();
+    assert_eq!(record["warnings"].as_array().unwrap().len(), parts);
+}

@@ -121,8 +121,8 @@ fn compare(args: CompareArgs) -> Result<i32> {
     };
     let mut warned = false;
     for (path, piece) in [(&args.a, &findings.a), (&args.b, &findings.b)] {
-        for warning in &piece.warnings {
-            warned = true;
+        warned |= !piece.warnings.is_empty();
+        for warning in collatio::report::warnings::summarise(&piece.warnings) {
             say!("collatio: warning: {}: {warning}", path.display());
         }
     }
@@ -201,7 +201,7 @@ fn inspect(args: InspectArgs) -> Result<i32> {
             json
         }
     };
-    for warning in &piece.warnings {
+    for warning in collatio::report::warnings::summarise(&piece.warnings) {
         say!("collatio: warning: {}: {warning}", args.file.display());
     }
     write_stdout(&text)?;
