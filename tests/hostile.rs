@@ -649,3 +649,56 @@ fn repeated_warnings_are_summarised() {
     let record: serde_json::Value = serde_json::from_str(&json).unwrap();
     assert_eq!(record["warnings"].as_array().unwrap().len(), parts);
 }
+
+/// The note limit is applied to the `<note>` elements before the XML tree is built, so a
+/// container holding far more notes than allowed is refused without reading them into memory.
+#[test]
+fn note_limit_is_checked_before_the_tree_is_built() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("many.mxl");
+    {
+        let mut zip = zip::ZipWriter::new(std::fs::File::create(&path).unwrap());
+        let options = zip::write::SimpleFileOptions::default()
+            .compression_method(zip::CompressionMethod::Deflated);
+        zip.start_file("score.musicxml", options).unwrap();
+        zip.write_all(b"<score-partwise version=\"4.0\"><part-list><score-part id=\"P1\"><part-name>p</part-name></score-part></part-list><part id=\"P1\">").unwrap();
+        let note =
+            b"<note><pitch><step>C</step><octave>4</octave></pitch><duration>1</duration></note>";
+        // 300 bars of 1,000 notes: a reader that counts bar by bar stops at 101,000 notes; the
+        // count before the tree is built sees all 300,000.
+        for bar in 1..=300 {
+            zip.write_all(format!("<measure number=\"{bar}\">").as_bytes())
+                .unwrap();
+            for _ in 0..1_000 {
+                zip.write_all(note).unwrap();
+            }
+            zip.write_all(b"</measure>").unwrap();
+        }
+        zip.write_all(b"</part></score-partwise>").unwrap();
+        zip.finish().unwrap();
+    }
+    let p = path.display().to_string();
+    assert_error(
+        &run_bounded(&["inspect", &p, "--max-notes", "100000"]),
+        3,
+        &p,
+        "number of notes is 300000",
+    );
+}
+
+/// A file above the size limit is refused naming its size on disk, also for audio, which is
+/// read in a stream (RIFF/WAVE: "RIFF", a length, "WAVE").
+#[test]
+fn size_error_names_the_file_size() {
+    let dir = tempfile::tempdir().unwrap();
+    let size = (1 << 20) + (1 << 19);
+    let mut wav = b"RIFF\0\0\0\0WAVEfmt ".to_vec();
+    wav.resize(size, 0);
+    let p = write(dir.path(), "big.wav", &wav);
+    assert_error(
+        &run(&["inspect", &p, "--max-file-mb", "1"]),
+        3,
+        &p,
+        &format!("file size in bytes is {size}"),
+    );
+}

@@ -60,7 +60,7 @@ struct PartSource<'a, 'input> {
 }
 
 fn read_text(text: &str, limits: &Limits, unfold: bool) -> Result<RawPiece, Problem> {
-    prescan::check(text, "musicxml")?;
+    prescan::check(text, "musicxml", limits)?;
     let options = roxmltree::ParsingOptions {
         allow_dtd: true,
         ..roxmltree::ParsingOptions::default()

@@ -15,7 +15,7 @@
 //! close one. Internal entities may hold markup too, and the parser expands them up to
 //! [`ENTITY_LEVELS`] deep, so the deepest entity value counts that many times over.
 
-use super::super::Problem;
+use super::super::{Limits, Problem};
 
 /// Most levels of elements nested in one document.
 pub(crate) const MAX_DEPTH: usize = 256;
@@ -42,6 +42,10 @@ pub(crate) struct Shape {
     pub entity_references: usize,
     /// Longest quoted value in a DOCTYPE, in bytes.
     pub longest_entity: usize,
+    /// Elements (start tags) in the content.
+    pub elements: u64,
+    /// `<note>` elements in the content.
+    pub notes: u64,
 }
 
 impl Shape {
@@ -52,8 +56,13 @@ impl Shape {
     }
 }
 
-/// Checks `text` against the limits; `layer` starts the message (`musicxml`, `mxl: …`).
-pub(crate) fn check(text: &str, layer: &'static str) -> Result<(), Problem> {
+/// Elements allowed per note of `--max-notes` (a MusicXML note with pitch, duration, voice,
+/// type, stem, beams and notations takes 10 to 20), and at least a million.
+const ELEMENTS_PER_NOTE: u64 = 40;
+
+/// Checks `text` against the limits (and the note limit against its `<note>` elements, before
+/// a tree of them is built); `layer` starts the message (`musicxml`, `mxl: …`).
+pub(crate) fn check(text: &str, layer: &'static str, limits: &Limits) -> Result<(), Problem> {
     let shape = scan(text.as_bytes(), MAX_DEPTH);
     if shape.expanded_depth() > MAX_DEPTH {
         return Err(Problem::TooDeep {
@@ -67,6 +76,16 @@ pub(crate) fn check(text: &str, layer: &'static str) -> Result<(), Problem> {
             "an element with more than {MAX_ATTRIBUTES} attributes"
         ));
     }
+    limits.check_notes(shape.notes)?;
+    Limits::check(
+        shape.elements,
+        limits
+            .max_notes
+            .saturating_mul(ELEMENTS_PER_NOTE)
+            .max(1_000_000),
+        "number of XML elements",
+        "--max-notes",
+    )?;
     let expansion = shape.entity_references.saturating_mul(shape.longest_entity);
     let allowed = text.len().saturating_mul(MAX_EXPANSION).max(1 << 20);
     if expansion > allowed {
@@ -113,6 +132,8 @@ fn scan(b: &[u8], limit: usize) -> Shape {
             i = skip_past(b, i + 2, b">");
         } else {
             let tag = start_tag(b, i + 1);
+            shape.elements += 1;
+            shape.notes += u64::from(is_note(&b[i + 1..]));
             shape.attributes = shape.attributes.max(tag.attributes);
             shape.entity_references += tag.references;
             if !tag.closed {
@@ -126,6 +147,14 @@ fn scan(b: &[u8], limit: usize) -> Shape {
         }
     }
     shape
+}
+
+/// Whether a start tag (from just after `<`) is a `<note>`.
+fn is_note(tag: &[u8]) -> bool {
+    tag.starts_with(b"note")
+        && tag
+            .get(4)
+            .is_some_and(|c| c.is_ascii_whitespace() || *c == b'>' || *c == b'/')
 }
 
 /// Whether the text after `&` is a reference to a declared entity: not a character reference
@@ -247,30 +276,52 @@ mod tests {
 
     #[test]
     fn deep_and_unclosed_documents_are_found() {
-        let too_deep = |t: &str| matches!(check(t, "musicxml"), Err(Problem::TooDeep { .. }));
+        let too_deep = |t: &str| {
+            matches!(
+                check(t, "musicxml", &Limits::default()),
+                Err(Problem::TooDeep { .. })
+            )
+        };
         let deep = format!("{}{}", "<a>".repeat(20_000), "</a>".repeat(20_000));
         assert!(too_deep(&deep));
         assert!(too_deep(&"<a>".repeat(1_000_000)));
         let fine = format!("{}{}", "<a>".repeat(MAX_DEPTH), "</a>".repeat(MAX_DEPTH));
-        assert!(check(&fine, "musicxml").is_ok());
+        assert!(check(&fine, "musicxml", &Limits::default()).is_ok());
+    }
+
+    #[test]
+    fn notes_and_elements_are_counted_before_parsing() {
+        let limits = Limits {
+            max_notes: 2,
+            ..Limits::default()
+        };
+        let notes = "<a><note/><note x='1'><notehead/></note><notes/></a>";
+        assert_eq!(scan(notes.as_bytes(), 100).notes, 2);
+        assert_eq!(scan(notes.as_bytes(), 100).elements, 5);
+        assert!(check(notes, "musicxml", &limits).is_ok());
+        let three = "<a><note/><note/><note/></a>";
+        assert!(matches!(
+            check(three, "musicxml", &limits),
+            Err(Problem::Limit { .. })
+        ));
     }
 
     #[test]
     fn many_attributes_and_large_expansions_are_found() {
         let attrs: String = (0..2_000).map(|k| format!(" a{k}='1'")).collect();
-        assert!(check(&format!("<a{attrs}/>"), "musicxml").is_err());
+        assert!(check(&format!("<a{attrs}/>"), "musicxml", &Limits::default()).is_err());
         let value = "x".repeat(5_000);
         let doc = format!(
             "<!DOCTYPE a [<!ENTITY e \"{value}\">]><a>{}</a>",
             "&e;".repeat(5_000)
         );
-        assert!(check(&doc, "musicxml").is_err());
+        assert!(check(&doc, "musicxml", &Limits::default()).is_err());
         let in_attributes = format!(
             "<!DOCTYPE a [<!ENTITY e \"{value}\">]><a>{}</a>",
             "<b c='&e;'/>".repeat(5_000)
         );
-        assert!(check(&in_attributes, "musicxml").is_err());
+        assert!(check(&in_attributes, "musicxml", &Limits::default()).is_err());
         let few = format!("<!DOCTYPE a [<!ENTITY e \"{value}\">]><a>&e;&e;&amp;&#65;</a>");
-        assert!(check(&few, "musicxml").is_ok());
+        assert!(check(&few, "musicxml", &Limits::default()).is_ok());
     }
 }
