@@ -702,3 +702,21 @@ fn size_error_names_the_file_size() {
         &format!("file size in bytes is {size}"),
     );
 }
+
+/// `-` writes a file output to standard output where a run has one thing to print: the JSON
+/// record of compare, the MIDI file of inspect, the index of corpus build.
+#[test]
+fn dash_writes_to_standard_output() {
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let b = fixture("tune_family/twinkle_d_2-2_doubled.musicxml");
+    let (code, stdout, stderr) = run(&["compare", &a, &b, "--json", "-"]);
+    assert_eq!(code, 0, "{stderr}");
+    let (_, expected, _) = run(&["compare", &a, &b, "--format", "json"]);
+    assert_eq!(stdout, expected);
+    assert!(!Path::new("-").exists());
+
+    let out = common::run_collatio(&["inspect", &a, "--export-midi", "-"]);
+    assert_eq!(out.status.code(), Some(0));
+    // SMF 1.0: a Standard MIDI File starts with the header chunk "MThd".
+    assert!(out.stdout.starts_with(b"MThd"));
+}

@@ -104,15 +104,16 @@ fn compare(args: CompareArgs) -> Result<i32> {
         .as_ref()
         .map(|(index, source)| CorpusRef { index, source });
     let findings = compare_works(a, b, &settings, corpus);
-    if let Some((options, outputs)) = &exhibit {
+    let json_to_stdout = args.exhibit.json_to_stdout();
+    if let Some((options, outputs)) = exhibit.as_ref().filter(|(_, o)| o.any()) {
         let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;
         for path in &written.files {
             say!("collatio: wrote {}", path.display());
         }
     }
     let text = match args.format {
-        OutputFormat::Text => collatio::report::compare::render_text(&findings),
-        OutputFormat::Json => {
+        OutputFormat::Text if !json_to_stdout => collatio::report::compare::render_text(&findings),
+        _ => {
             let record = collatio::report::compare::record(&findings);
             let mut json = serde_json::to_string_pretty(&record)?;
             json.push('\n');
@@ -141,7 +142,12 @@ fn check_compare_outputs(args: &CompareArgs) -> Result<()> {
         .exhibit
         .pdf
         .iter()
-        .chain(&args.exhibit.json)
+        .chain(
+            args.exhibit
+                .json
+                .iter()
+                .filter(|_| !args.exhibit.json_to_stdout()),
+        )
         .cloned()
         .collect();
     check_outputs(&inputs, &files)?;
@@ -168,9 +174,13 @@ fn export_midi(piece: &collatio::timeline::Piece, target: &std::path::Path) -> R
 /// escaped ([`collatio::report::format::printable_text`]); a closed pipe (`| head`) is not an
 /// error.
 fn write_stdout(text: &str) -> Result<()> {
-    let text = collatio::report::format::printable_text(text);
+    write_stdout_bytes(collatio::report::format::printable_text(text).as_bytes())
+}
+
+/// Writes bytes (a file asked for as `-`) to standard output; a closed pipe is not an error.
+fn write_stdout_bytes(bytes: &[u8]) -> Result<()> {
     let mut stdout = std::io::stdout().lock();
-    match stdout.write_all(text.as_bytes()) {
+    match stdout.write_all(bytes).and_then(|()| stdout.flush()) {
         Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
         _ => Ok(()),
     }
@@ -178,7 +188,8 @@ fn write_stdout(text: &str) -> Result<()> {
 
 fn inspect(args: InspectArgs) -> Result<i32> {
     let options: ReadOptions = args.read_options()?;
-    if let Some(target) = &args.export_midi {
+    let midi_to_stdout = args.export_midi.as_deref() == Some(std::path::Path::new("-"));
+    if let Some(target) = args.export_midi.as_ref().filter(|_| !midi_to_stdout) {
         if same_file(&args.file, target) {
             return Err(args::UsageError(format!(
                 "--export-midi {} would overwrite the input",
@@ -189,6 +200,19 @@ fn inspect(args: InspectArgs) -> Result<i32> {
         check_replaceable(target)?;
     }
     let piece = read_file(&args.file, &options)?;
+    if midi_to_stdout {
+        // The MIDI file in place of the listing.
+        let bytes = collatio::report::export::melody_to_smf(&piece)?;
+        for warning in collatio::report::warnings::summarise(&piece.warnings) {
+            say!("collatio: warning: {}: {warning}", args.file.display());
+        }
+        write_stdout_bytes(&bytes)?;
+        return Ok(if piece.warnings.is_empty() {
+            EXIT_OK
+        } else {
+            EXIT_PARTIAL
+        });
+    }
     if let Some(target) = &args.export_midi {
         export_midi(&piece, target)?;
     }

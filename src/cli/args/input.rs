@@ -88,7 +88,8 @@ pub struct InspectArgs {
     #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
     pub format: OutputFormat,
 
-    /// Also write the melody as a Standard MIDI File (e.g. a transcription to correct).
+    /// Also write the melody as a Standard MIDI File (e.g. a transcription to correct); `-`
+    /// writes it to standard output in place of the listing.
     #[arg(long, value_name = "FILE.mid", help_heading = "OUTPUT")]
     pub export_midi: Option<PathBuf>,
 }

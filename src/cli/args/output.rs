@@ -17,7 +17,8 @@ pub struct ExhibitArgs {
     /// Write the PDF exhibit to FILE.
     #[arg(long, value_name = "FILE", help_heading = "OUTPUT")]
     pub pdf: Option<PathBuf>,
-    /// Write the JSON record (as --format json prints it) to FILE.
+    /// Write the JSON record (as --format json prints it) to FILE; `-` prints it on standard
+    /// output in place of the listing.
     #[arg(long, value_name = "FILE", help_heading = "OUTPUT")]
     pub json: Option<PathBuf>,
     /// Write each passage as MusicXML and MIDI into DIR (created if missing).
@@ -53,6 +54,11 @@ pub enum PaperArg {
 }
 
 impl ExhibitArgs {
+    /// Whether the JSON record goes to standard output (`--json -`).
+    pub fn json_to_stdout(&self) -> bool {
+        self.json.as_deref() == Some(std::path::Path::new("-"))
+    }
+
     /// Whether any file output was asked for.
     pub fn any(&self) -> bool {
         self.pdf.is_some() || self.json.is_some() || self.export.is_some()
@@ -87,7 +93,7 @@ impl ExhibitArgs {
         };
         let outputs = Outputs {
             pdf: self.pdf.clone(),
-            json: self.json.clone(),
+            json: self.json.clone().filter(|_| !self.json_to_stdout()),
             export_dir: self.export.clone(),
         };
         Ok((options, outputs))
