@@ -720,3 +720,36 @@ fn dash_writes_to_standard_output() {
     // SMF 1.0: a Standard MIDI File starts with the header chunk "MThd".
     assert!(out.stdout.starts_with(b"MThd"));
 }
+
+/// Exports into a folder used before: the passages of the earlier run that this run does not
+/// write are removed, other files are left alone.
+#[test]
+fn exports_replace_an_earlier_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let exports = dir.path().join("exports");
+    std::fs::create_dir(&exports).unwrap();
+    for name in ["passage-97.musicxml", "passage-97.mid", "notes.txt"] {
+        std::fs::write(exports.join(name), b"earlier").unwrap();
+    }
+    let a = fixture("tune_family/twinkle_c_4-4.musicxml");
+    let b = fixture("tune_family/twinkle_d_2-2_doubled.musicxml");
+    let (code, _, stderr) = run(&[
+        "compare",
+        &a,
+        &b,
+        "--export",
+        &exports.display().to_string(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(exports.join("passage-01.musicxml").is_file(), "{stderr}");
+    assert!(!exports.join("passage-97.musicxml").exists(), "{stderr}");
+    assert!(!exports.join("passage-97.mid").exists());
+    assert!(
+        stderr.contains("removed") && stderr.contains("passage-97.mid"),
+        "{stderr}"
+    );
+    assert_eq!(
+        std::fs::read(exports.join("notes.txt")).unwrap(),
+        b"earlier"
+    );
+}

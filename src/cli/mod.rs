@@ -110,6 +110,12 @@ fn compare(args: CompareArgs) -> Result<i32> {
         for path in &written.files {
             say!("collatio: wrote {}", path.display());
         }
+        for path in &written.removed {
+            say!(
+                "collatio: removed {} (a passage of an earlier run)",
+                path.display()
+            );
+        }
     }
     let text = match args.format {
         OutputFormat::Text if !json_to_stdout => collatio::report::compare::render_text(&findings),

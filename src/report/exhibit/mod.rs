@@ -50,6 +50,42 @@ pub struct Written {
     pub files: Vec<PathBuf>,
     /// Pages of the PDF, when one was written.
     pub pdf_pages: usize,
+    /// Passage exports of an earlier run removed from the export folder.
+    pub removed: Vec<PathBuf>,
+}
+
+/// Removes the passage exports (`passage-NN.musicxml`, `passage-NN.mid`, regular files only)
+/// in `dir` that this run did not write, so that the folder holds one run's passages.
+fn remove_stale_exports(dir: &Path, written: &[PathBuf]) -> Result<Vec<PathBuf>, OutputError> {
+    let io = |source| OutputError::Io {
+        path: dir.to_path_buf(),
+        source,
+    };
+    let ours = |name: &str| {
+        let stem = name
+            .strip_suffix(".musicxml")
+            .or_else(|| name.strip_suffix(".mid"));
+        stem.and_then(|s| s.strip_prefix("passage-"))
+            .is_some_and(|n| !n.is_empty() && n.bytes().all(|c| c.is_ascii_digit()))
+    };
+    let mut removed = Vec::new();
+    for entry in std::fs::read_dir(dir).map_err(io)? {
+        let entry = entry.map_err(io)?;
+        let path = entry.path();
+        let is_file = entry.file_type().map_err(io)?.is_file();
+        let name = entry.file_name();
+        if is_file
+            && name.to_str().is_some_and(ours)
+            && !written
+                .iter()
+                .any(|w| w.file_name() == Some(name.as_os_str()))
+        {
+            std::fs::remove_file(&path).map_err(io)?;
+            removed.push(path);
+        }
+    }
+    removed.sort();
+    Ok(removed)
 }
 
 /// Writes the requested outputs. The JSON is the record `compare --format json` prints.
@@ -117,5 +153,8 @@ pub fn write_exhibit(
     }
     write_all(&files)?;
     written.files = files.into_iter().map(|(path, _)| path).collect();
+    if let Some(dir) = &outputs.export_dir {
+        written.removed = remove_stale_exports(dir, &written.files)?;
+    }
     Ok(written)
 }
