@@ -178,7 +178,7 @@ pub struct AudioArgs {
     )]
     pub fmax: f64,
     /// Longest audio analysed, in seconds.
-    #[arg(value_parser = super::ranges::number(1.0, 86_400.0),
+    #[arg(value_parser = super::ranges::number(0.01, 86_400.0),
         long,
         default_value_t = 1800.0,
         value_name = "SECONDS",
