@@ -184,7 +184,8 @@ impl CorpusIndex {
             .with_limit(declared.saturating_mul(4).max(1 << 20))
             .deserialize(payload)
             .map_err(|e| IndexError::Corrupt(e.to_string()))?;
-        super::validate::validate(&index)?;
+        super::validate::validate(index.ngram, NGRAM, &index.melodies, &index.postings)
+            .map_err(IndexError::Corrupt)?;
         Ok(index)
     }
 

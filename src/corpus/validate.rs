@@ -2,27 +2,33 @@
 //! editing is refused as corrupt rather than trusted: figure length, postings (sorted, within
 //! range, never empty) and each melody's notes, bars and key.
 
-use super::index::{CorpusIndex, IndexError, NGRAM};
 use super::melody::{MelodyEntry, StoredBar, StoredNote};
 
 /// Highest pitch a stored note may have (MIDI note numbers run 0–127; recordings may be read a
 /// little beyond).
 const MAX_PITCH: f32 = 140.0;
 
-/// Checks every field of `index`; the first problem found is named.
-pub fn validate(index: &CorpusIndex) -> Result<(), IndexError> {
-    let corrupt = |what: String| Err(IndexError::Corrupt(what));
-    if index.ngram != NGRAM {
-        return corrupt(format!("figure length {}, expected {NGRAM}", index.ngram));
+/// Checks every field of an index: its figure length `ngram` against the one this build uses
+/// (`expected`), its `melodies` and its `postings`; the first problem found is named.
+pub fn validate(
+    ngram: usize,
+    expected: usize,
+    melodies: &[MelodyEntry],
+    postings: &[(u64, Vec<u32>)],
+) -> Result<(), String> {
+    let corrupt = |what: String| Err(what);
+    if ngram != expected {
+        return corrupt(format!("figure length {ngram}, expected {expected}"));
     }
-    let melodies = index.melodies.len();
+    let entries = melodies;
+    let melodies = entries.len();
     if u32::try_from(melodies).is_err() {
         return corrupt(format!(
             "{melodies} melodies, more than an index can number"
         ));
     }
     let mut previous: Option<u64> = None;
-    for (figure, ids) in &index.postings {
+    for (figure, ids) in postings {
         if previous.is_some_and(|p| p >= *figure) {
             return corrupt(format!("figure {figure:#x} is out of order"));
         }
@@ -41,8 +47,8 @@ pub fn validate(index: &CorpusIndex) -> Result<(), IndexError> {
             ));
         }
     }
-    for (k, melody) in index.melodies.iter().enumerate() {
-        melody_ok(melody).map_err(|e| IndexError::Corrupt(format!("melody {k}: {e}")))?;
+    for (k, melody) in entries.iter().enumerate() {
+        melody_ok(melody).map_err(|e| format!("melody {k}: {e}"))?;
     }
     Ok(())
 }
