@@ -704,7 +704,8 @@ fn size_error_names_the_file_size() {
 }
 
 /// `-` writes a file output to standard output where a run has one thing to print: the JSON
-/// record of compare, the MIDI file of inspect, the index of corpus build.
+/// record or the PDF of compare (not both), the MIDI file of inspect, the index of corpus
+/// build; never a file named `-`.
 #[test]
 fn dash_writes_to_standard_output() {
     let a = fixture("tune_family/twinkle_c_4-4.musicxml");
@@ -714,6 +715,14 @@ fn dash_writes_to_standard_output() {
     let (_, expected, _) = run(&["compare", &a, &b, "--format", "json"]);
     assert_eq!(stdout, expected);
     assert!(!Path::new("-").exists());
+
+    let out = common::run_collatio(&["compare", &a, &b, "--pdf", "-"]);
+    assert_eq!(out.status.code(), Some(0));
+    assert!(out.stdout.starts_with(b"%PDF-"));
+    let (code, _, stderr) = run(&["compare", &a, &b, "--pdf", "-", "--json", "-"]);
+    assert_eq!(code, 2, "{stderr}");
+    let (code, _, stderr) = run(&["compare", &a, &b, "--export", "-"]);
+    assert_eq!(code, 2, "{stderr}");
 
     let out = common::run_collatio(&["inspect", &a, "--export-midi", "-"]);
     assert_eq!(out.status.code(), Some(0));

@@ -117,6 +117,14 @@ fn compare(args: CompareArgs) -> Result<i32> {
             );
         }
     }
+    if let Some((options, _)) = exhibit.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
+        // The PDF in place of the listing.
+        let prepared = collatio::report::exhibit::Exhibit::new(&findings, options)?;
+        let (bytes, _) = collatio::report::pdf::render(&prepared)?;
+        let warned = warn_pieces(&args, &findings);
+        write_stdout_bytes(&bytes)?;
+        return Ok(if warned { EXIT_PARTIAL } else { EXIT_OK });
+    }
     let text = match args.format {
         OutputFormat::Text if !json_to_stdout => collatio::report::compare::render_text(&findings),
         _ => {
@@ -126,6 +134,13 @@ fn compare(args: CompareArgs) -> Result<i32> {
             json
         }
     };
+    let warned = warn_pieces(&args, &findings);
+    write_stdout(&text)?;
+    Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
+}
+
+/// Prints the warnings of both works (summarised); whether there were any.
+fn warn_pieces(args: &CompareArgs, findings: &collatio::findings::Findings) -> bool {
     let mut warned = false;
     for (path, piece) in [(&args.a, &findings.a), (&args.b, &findings.b)] {
         warned |= !piece.warnings.is_empty();
@@ -133,8 +148,7 @@ fn compare(args: CompareArgs) -> Result<i32> {
             say!("collatio: warning: {}: {warning}", path.display());
         }
     }
-    write_stdout(&text)?;
-    Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
+    warned
 }
 
 /// Refuses, before any file is read, output paths that name an input or each other or that are
@@ -144,20 +158,27 @@ fn check_compare_outputs(args: &CompareArgs) -> Result<()> {
     if let Some(corpus) = &args.statistics.corpus {
         inputs.push(corpus.as_path());
     }
-    let files: Vec<std::path::PathBuf> = args
-        .exhibit
-        .pdf
-        .iter()
-        .chain(
-            args.exhibit
-                .json
-                .iter()
-                .filter(|_| !args.exhibit.json_to_stdout()),
-        )
-        .cloned()
-        .collect();
+    let files: Vec<std::path::PathBuf> = [
+        (&args.exhibit.pdf, args.exhibit.pdf_to_stdout()),
+        (&args.exhibit.json, args.exhibit.json_to_stdout()),
+    ]
+    .into_iter()
+    .filter(|(_, to_stdout)| !to_stdout)
+    .filter_map(|(path, _)| path.clone())
+    .collect();
     check_outputs(&inputs, &files)?;
+    if args.exhibit.pdf_to_stdout() && args.exhibit.json_to_stdout() {
+        return Err(args::UsageError(
+            "--pdf - and --json - both ask for standard output; write one of them to a file".into(),
+        )
+        .into());
+    }
     if let Some(dir) = &args.exhibit.export {
+        if dir.as_os_str() == "-" {
+            return Err(
+                args::UsageError("--export needs a folder, not standard output".into()).into(),
+            );
+        }
         if dir.exists() && !dir.is_dir() {
             return Err(
                 args::UsageError(format!("--export {} is not a folder", dir.display())).into(),
