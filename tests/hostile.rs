@@ -218,6 +218,8 @@ fn absurd_musicxml_values_are_warned_with_their_bar() {
         ("<sound tempo=\"96\"/>", "<sound tempo=\"1e-300\"/>", "tempo 1e-300"),
         ("<sound tempo=\"96\"/>", "<sound tempo=\"0\"/>", "tempo 0"),
         ("<fifths>1</fifths>", "<fifths>2000000000</fifths>", "<fifths> 2e9"),
+        ("<beats>4</beats>", "<beats>4294967295</beats>", "4294967295/4 is not a usable time signature"),
+        ("<beat-type>4</beat-type>", "<beat-type>0</beat-type>", "<time> is not a usable time signature"),
         (
             "<divisions>4</divisions>",
             "<divisions>4</divisions><transpose><diatonic>0</diatonic><chromatic>2000000000</chromatic></transpose>",

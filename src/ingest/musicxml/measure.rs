@@ -16,6 +16,8 @@ const MAX_DURATION_QUARTERS: f64 = 1.0e6;
 const OCTAVES: std::ops::RangeInclusive<i32> = 0..=9;
 /// Largest alteration in semitones (triple sharps and flats, the most common practice writes).
 const MAX_ALTER: f64 = 3.0;
+/// Most beats in a time signature read (the longest additive meters in use have a few dozen).
+const MAX_BEATS: u32 = 128;
 /// Largest transposition of a part in semitones or diatonic steps (four octaves).
 const MAX_TRANSPOSE: f64 = 48.0;
 
@@ -107,8 +109,9 @@ impl PartState {
         let quarters = divisions / self.divisions;
         if !quarters.is_finite() || quarters.abs() > MAX_DURATION_QUARTERS {
             return Err(Problem::MusicXml(format!(
-                "measure {label}: duration {divisions} (at {} divisions per quarter) is not a usable length",
-                self.divisions
+                "measure {label}: duration {} (at {} divisions per quarter) is not a usable length",
+                shown(divisions),
+                shown(self.divisions)
             )));
         }
         Ok((quarters * f64::from(self.resolution)).round() as i64)
@@ -251,9 +254,14 @@ fn read_attributes(node: Node, cursor: i64, state: &mut PartState, out: &mut Mea
             out.keys.push((cursor, concert, mode));
         }
     }
-    if let Some(time) = child(node, "time") {
-        if let Some((n, d)) = time_signature(time) {
-            out.time.push((cursor, n, d));
+    if let Some(time) = child(node, "time").filter(|t| child(*t, "senza-misura").is_none()) {
+        match time_signature(time) {
+            Some((n, d)) if n <= MAX_BEATS => out.time.push((cursor, n, d)),
+            found => out.warnings.push(format!(
+                "musicxml: measure {}: {} is not a usable time signature (at most {MAX_BEATS} beats of a unit from 1 to 128); ignored",
+                out.label,
+                found.map_or_else(|| "<time>".to_string(), |(n, d)| format!("{n}/{d}"))
+            )),
         }
     }
 }
