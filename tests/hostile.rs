@@ -764,3 +764,33 @@ fn exports_replace_an_earlier_run() {
         b"earlier"
     );
 }
+
+/// Symbolic links that lead back up a corpus folder are not followed: two such links would
+/// double the tree at every level and the listing would never end.
+#[cfg(unix)]
+#[test]
+fn corpus_build_does_not_follow_links_to_folders() {
+    let dir = tempfile::tempdir().unwrap();
+    let folder = dir.path().join("corpus");
+    std::fs::create_dir(&folder).unwrap();
+    std::fs::copy(
+        fixture("tune_family/twinkle_c_4-4.musicxml"),
+        folder.join("good.musicxml"),
+    )
+    .unwrap();
+    std::os::unix::fs::symlink(&folder, folder.join("up")).unwrap();
+    std::os::unix::fs::symlink(&folder, folder.join("again")).unwrap();
+    let index = dir.path().join("c.idx").display().to_string();
+    let (code, _, stderr) = run_bounded(&[
+        "corpus",
+        "build",
+        &folder.display().to_string(),
+        "-o",
+        &index,
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(
+        stderr.contains("indexed 1 melodies from 1 files"),
+        "{stderr}"
+    );
+}
