@@ -794,3 +794,28 @@ fn corpus_build_does_not_follow_links_to_folders() {
         "{stderr}"
     );
 }
+
+/// A pitch that sounds outside MIDI notes 0-127 after transposition (here B9 moved up four
+/// octaves) is skipped with a warning naming the bar.
+#[test]
+fn pitches_sounding_outside_midi_are_warned() {
+    let demo = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("demo/pierside-lamps.musicxml"),
+    )
+    .unwrap();
+    let text = demo
+        .replacen(
+            "<divisions>4</divisions>",
+            "<divisions>4</divisions><transpose><diatonic>0</diatonic><chromatic>0</chromatic><octave-change>4</octave-change></transpose>",
+            1,
+        )
+        .replacen("<step>D</step><octave>4</octave>", "<step>B</step><octave>9</octave>", 1);
+    let dir = tempfile::tempdir().unwrap();
+    let path = write(dir.path(), "high.musicxml", text.as_bytes());
+    let (code, _, stderr) = run(&["inspect", &path]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(
+        stderr.contains("measure 0:") && stderr.contains("sounding MIDI notes 0-127"),
+        "{stderr}"
+    );
+}

@@ -328,11 +328,17 @@ fn read_note(
             octave: child_text(p, "octave")?.parse().ok()?,
         })
     });
-    let absurd =
-        spelling.is_some_and(|s| !OCTAVES.contains(&s.octave) || s.alter.abs() > MAX_ALTER);
+    // MIDI note numbers run 0-127 (MIDI 1.0 Detailed Specification, Note On); a pitch that
+    // sounds outside them after transposition is as unusable as an octave outside 0-9.
+    let sounding = |s: &Spelling| s.transposed(state.transpose.0, state.transpose.1).midi();
+    let absurd = spelling.is_some_and(|s| {
+        !OCTAVES.contains(&s.octave)
+            || s.alter.abs() > MAX_ALTER
+            || !(0.0..=127.0).contains(&sounding(&s))
+    });
     if let Some(s) = spelling.filter(|_| absurd) {
         out.warnings.push(format!(
-            "musicxml: measure {}: a pitch with <octave> {} and <alter> {} is outside octaves {OCTAVES:?} or alterations of {MAX_ALTER} semitones; note skipped",
+            "musicxml: measure {}: a pitch with <octave> {} and <alter> {} is outside octaves {OCTAVES:?}, alterations of {MAX_ALTER} semitones or sounding MIDI notes 0-127; note skipped",
             out.label,
             s.octave,
             shown(s.alter)
