@@ -1,6 +1,7 @@
 //! Damaged inputs never panic: every fixture truncated and with bytes changed (a fixed,
 //! seeded set of mutations), plus the crashing inputs the fuzzers once found
-//! (`tests/fixtures/fuzz/`), are read to a result or a clean error.
+//! (`tests/fixtures/fuzz/`) and the crafted hostile inputs (`tests/fixtures/hostile/`), are read
+//! to a result or a clean error.
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
 use collatio::ingest::{read_bytes, Limits, ReadOptions};
@@ -85,8 +86,13 @@ fn mutated_fixtures_never_panic() {
 
 #[test]
 fn fuzz_regressions_read_cleanly() {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/fuzz");
-    for path in files_in(&dir) {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures");
+    let mut files = files_in(&root.join("fuzz"));
+    // The crafted hostile inputs, which are also the fuzzers' seeds.
+    let hostile = files_in(&root.join("hostile"));
+    assert!(hostile.len() >= 10, "{hostile:?}");
+    files.extend(hostile);
+    for path in files {
         let bytes = std::fs::read(&path).unwrap();
         let result = std::panic::catch_unwind(|| read_bytes(&path, &bytes, &options()).is_ok());
         assert!(result.is_ok(), "{} panics", path.display());

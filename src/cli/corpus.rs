@@ -2,16 +2,38 @@
 
 use super::args::{BuildArgs, OutputFormat, SearchArgs};
 use anyhow::{Context, Result};
+use collatio::corpus::index::MAX_INDEX_BYTES;
 use collatio::corpus::{build_from_dir, corpus_files, CorpusIndex, IndexSource};
 use collatio::ingest::{read_file, ReadOptions};
 use collatio::pipeline::{search as search_corpus, CorpusRef, SearchSettings};
-use collatio::report::output::{same_file, write_atomic};
+use collatio::report::output::{check_outputs, write_atomic};
 use std::io::IsTerminal;
+use std::io::Write;
 use std::path::Path;
 
 /// Reads an index file with the file named in errors, and the identity of the file as read.
 pub fn load_index(path: &Path) -> Result<(CorpusIndex, IndexSource)> {
-    let bytes = std::fs::read(path).with_context(|| format!("{}: cannot read", path.display()))?;
+    use std::io::Read;
+    let named = |e: String| anyhow::anyhow!("{}: {e}", path.display());
+    collatio::ingest::regular_file(path).map_err(|e| named(e.to_string()))?;
+    let file =
+        std::fs::File::open(path).with_context(|| format!("{}: cannot read", path.display()))?;
+    let too_big = |size: u64| {
+        named(format!(
+            "the index file is {size} bytes, above the limit of {MAX_INDEX_BYTES} bytes"
+        ))
+    };
+    let size = file.metadata()?.len();
+    if size > MAX_INDEX_BYTES {
+        return Err(too_big(size));
+    }
+    let mut bytes = Vec::new();
+    file.take(MAX_INDEX_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .with_context(|| format!("{}: cannot read", path.display()))?;
+    if bytes.len() as u64 > MAX_INDEX_BYTES {
+        return Err(too_big(bytes.len() as u64));
+    }
     let index =
         CorpusIndex::from_bytes(&bytes).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))?;
     let source = IndexSource::new(&path.display().to_string(), &bytes, &index);
@@ -26,10 +48,16 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
     };
     let files = corpus_files(&args.dir)
         .with_context(|| format!("{}: cannot list the folder", args.dir.display()))?;
-    if files.iter().any(|f| same_file(f, &args.output)) {
-        anyhow::bail!(
-            "{}: the index would overwrite a file of the corpus; write it elsewhere",
-            args.output.display()
+    let to_stdout = args.output.as_os_str() == "-";
+    if !to_stdout {
+        // The same refusal as compare's outputs, and before any file is read.
+        let inputs: Vec<&Path> = files.iter().map(|f| f.as_path()).collect();
+        check_outputs(&inputs, std::slice::from_ref(&args.output))?;
+    }
+    if files.is_empty() {
+        say!(
+            "collatio: warning: {}: no MIDI, MusicXML or audio files found; the index will be empty",
+            args.dir.display()
         );
     }
     let bar = if std::io::stderr().is_terminal() {
@@ -53,23 +81,40 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
         b.finish_and_clear();
     }
     let bytes = built.index.to_bytes()?;
-    write_atomic(&args.output, &bytes)?;
-    eprintln!(
+    if to_stdout {
+        let mut stdout = std::io::stdout().lock();
+        stdout.write_all(&bytes)?;
+        stdout.flush()?;
+    } else {
+        write_atomic(&args.output, &bytes)?;
+    }
+    say!(
         "collatio: indexed {} melodies from {} files into {} ({} bytes, {} figures)",
         built.index.melodies.len(),
         built.files,
-        args.output.display(),
+        if to_stdout {
+            "standard output".to_string()
+        } else {
+            args.output.display().to_string()
+        },
         bytes.len(),
         built.index.postings.len()
     );
+    if built.index.melodies.is_empty() {
+        say!("collatio: warning: the index holds no melodies; searches in it will find nothing");
+    }
     if !built.skipped.is_empty() {
-        eprintln!("collatio: {} files skipped:", built.skipped.len());
+        say!("collatio: {} files skipped:", built.skipped.len());
         for s in &built.skipped {
-            eprintln!("  {s}");
+            say!("  {s}");
         }
         return Ok(super::EXIT_PARTIAL);
     }
-    Ok(super::EXIT_OK)
+    Ok(if built.index.melodies.is_empty() {
+        super::EXIT_PARTIAL
+    } else {
+        super::EXIT_OK
+    })
 }
 
 /// Runs `search`.
@@ -99,6 +144,12 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         index: &index,
         source: &source,
     };
+    if index.melodies.is_empty() {
+        say!(
+            "collatio: warning: {}: the corpus index holds no melodies; nothing can match",
+            args.corpus.display()
+        );
+    }
     let found = search_corpus(query, corpus, &settings);
     let text = match args.format {
         OutputFormat::Json => {
@@ -109,5 +160,9 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         OutputFormat::Text => collatio::report::search::render_text(&found),
     };
     super::write_stdout(&text)?;
-    Ok(super::EXIT_OK)
+    Ok(if index.melodies.is_empty() {
+        super::EXIT_PARTIAL
+    } else {
+        super::EXIT_OK
+    })
 }

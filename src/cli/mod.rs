@@ -4,6 +4,14 @@
 //! Exit codes: 0 success; 1 the command ran but some input was unreadable or partly skipped;
 //! 2 usage error; 3 input error (nothing could be read).
 
+/// Prints one line to standard error with control characters escaped: file names, titles,
+/// track names and index paths come from outside and may hold terminal escape sequences.
+macro_rules! say {
+    ($($arg:tt)*) => {
+        eprintln!("{}", collatio::report::format::printable(&format!($($arg)*)))
+    };
+}
+
 mod args;
 mod corpus;
 
@@ -12,7 +20,7 @@ use args::{Cli, Command, CompareArgs, InspectArgs, OutputFormat};
 use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
 use collatio::pipeline::{compare_works, CorpusRef};
-use collatio::report::output::{same_file, write_atomic};
+use collatio::report::output::{check_outputs, check_replaceable, same_file, write_atomic};
 use std::io::Write;
 
 /// Success.
@@ -38,9 +46,9 @@ pub fn main() -> i32 {
         Ok(code) => code,
         Err(error) => {
             let code = exit_code_of(&error);
-            eprintln!("collatio: error: {error}");
+            say!("collatio: error: {error}");
             for cause in error.chain().skip(1) {
-                eprintln!("  caused by: {cause}");
+                say!("  caused by: {cause}");
             }
             code
         }
@@ -85,6 +93,7 @@ fn compare(args: CompareArgs) -> Result<i32> {
     } else {
         None
     };
+    check_compare_outputs(&args)?;
     let a = read_file(&args.a, &options_a)?;
     let b = read_file(&args.b, &options_b)?;
     let index = match &args.statistics.corpus {
@@ -95,56 +104,110 @@ fn compare(args: CompareArgs) -> Result<i32> {
         .as_ref()
         .map(|(index, source)| CorpusRef { index, source });
     let findings = compare_works(a, b, &settings, corpus);
-    if let Some((options, outputs)) = &exhibit {
+    let json_to_stdout = args.exhibit.json_to_stdout();
+    if let Some((options, outputs)) = exhibit.as_ref().filter(|(_, o)| o.any()) {
         let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;
         for path in &written.files {
-            eprintln!("collatio: wrote {}", path.display());
+            say!("collatio: wrote {}", path.display());
+        }
+        for path in &written.removed {
+            say!(
+                "collatio: removed {} (a passage of an earlier run)",
+                path.display()
+            );
         }
     }
+    if let Some((options, _)) = exhibit.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
+        // The PDF in place of the listing.
+        let prepared = collatio::report::exhibit::Exhibit::new(&findings, options)?;
+        let (bytes, _) = collatio::report::pdf::render(&prepared)?;
+        let warned = warn_pieces(&args, &findings);
+        write_stdout_bytes(&bytes)?;
+        return Ok(if warned { EXIT_PARTIAL } else { EXIT_OK });
+    }
     let text = match args.format {
-        OutputFormat::Text => collatio::report::compare::render_text(&findings),
-        OutputFormat::Json => {
+        OutputFormat::Text if !json_to_stdout => collatio::report::compare::render_text(&findings),
+        _ => {
             let record = collatio::report::compare::record(&findings);
             let mut json = serde_json::to_string_pretty(&record)?;
             json.push('\n');
             json
         }
     };
-    let mut warned = false;
-    for (path, piece) in [(&args.a, &findings.a), (&args.b, &findings.b)] {
-        for warning in &piece.warnings {
-            warned = true;
-            eprintln!("collatio: warning: {}: {warning}", path.display());
-        }
-    }
+    let warned = warn_pieces(&args, &findings);
     write_stdout(&text)?;
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
 }
 
-/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically, refusing to
-/// overwrite the input.
-fn export_midi(
-    piece: &collatio::timeline::Piece,
-    input: &std::path::Path,
-    target: &std::path::Path,
-) -> Result<()> {
-    if same_file(input, target) {
-        return Err(args::UsageError(format!(
-            "--export-midi {} would overwrite the input",
-            target.display()
-        ))
+/// Prints the warnings of both works (summarised); whether there were any.
+fn warn_pieces(args: &CompareArgs, findings: &collatio::findings::Findings) -> bool {
+    let mut warned = false;
+    for (path, piece) in [(&args.a, &findings.a), (&args.b, &findings.b)] {
+        warned |= !piece.warnings.is_empty();
+        for warning in collatio::report::warnings::summarise(&piece.warnings) {
+            say!("collatio: warning: {}: {warning}", path.display());
+        }
+    }
+    warned
+}
+
+/// Refuses, before any file is read, output paths that name an input or each other or that are
+/// not regular files (an export folder must be a folder).
+fn check_compare_outputs(args: &CompareArgs) -> Result<()> {
+    let mut inputs = vec![args.a.as_path(), args.b.as_path()];
+    if let Some(corpus) = &args.statistics.corpus {
+        inputs.push(corpus.as_path());
+    }
+    let files: Vec<std::path::PathBuf> = [
+        (&args.exhibit.pdf, args.exhibit.pdf_to_stdout()),
+        (&args.exhibit.json, args.exhibit.json_to_stdout()),
+    ]
+    .into_iter()
+    .filter(|(_, to_stdout)| !to_stdout)
+    .filter_map(|(path, _)| path.clone())
+    .collect();
+    check_outputs(&inputs, &files)?;
+    if args.exhibit.pdf_to_stdout() && args.exhibit.json_to_stdout() {
+        return Err(args::UsageError(
+            "--pdf - and --json - both ask for standard output; write one of them to a file".into(),
+        )
         .into());
     }
+    if let Some(dir) = &args.exhibit.export {
+        if dir.as_os_str() == "-" {
+            return Err(
+                args::UsageError("--export needs a folder, not standard output".into()).into(),
+            );
+        }
+        if dir.exists() && !dir.is_dir() {
+            return Err(
+                args::UsageError(format!("--export {} is not a folder", dir.display())).into(),
+            );
+        }
+    }
+    Ok(())
+}
+
+/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically (the target was
+/// checked before the input was read).
+fn export_midi(piece: &collatio::timeline::Piece, target: &std::path::Path) -> Result<()> {
     let bytes = collatio::report::export::melody_to_smf(piece)?;
     write_atomic(target, &bytes)
         .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", target.display()))?;
     Ok(())
 }
 
-/// Writes to standard output; a closed pipe (`| head`) is not an error.
+/// Writes a report to standard output with control characters other than line breaks and tabs
+/// escaped ([`collatio::report::format::printable_text`]); a closed pipe (`| head`) is not an
+/// error.
 fn write_stdout(text: &str) -> Result<()> {
+    write_stdout_bytes(collatio::report::format::printable_text(text).as_bytes())
+}
+
+/// Writes bytes (a file asked for as `-`) to standard output; a closed pipe is not an error.
+fn write_stdout_bytes(bytes: &[u8]) -> Result<()> {
     let mut stdout = std::io::stdout().lock();
-    match stdout.write_all(text.as_bytes()) {
+    match stdout.write_all(bytes).and_then(|()| stdout.flush()) {
         Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e.into()),
         _ => Ok(()),
     }
@@ -152,9 +215,33 @@ fn write_stdout(text: &str) -> Result<()> {
 
 fn inspect(args: InspectArgs) -> Result<i32> {
     let options: ReadOptions = args.read_options()?;
+    let midi_to_stdout = args.export_midi.as_deref() == Some(std::path::Path::new("-"));
+    if let Some(target) = args.export_midi.as_ref().filter(|_| !midi_to_stdout) {
+        if same_file(&args.file, target) {
+            return Err(args::UsageError(format!(
+                "--export-midi {} would overwrite the input",
+                target.display()
+            ))
+            .into());
+        }
+        check_replaceable(target)?;
+    }
     let piece = read_file(&args.file, &options)?;
+    if midi_to_stdout {
+        // The MIDI file in place of the listing.
+        let bytes = collatio::report::export::melody_to_smf(&piece)?;
+        for warning in collatio::report::warnings::summarise(&piece.warnings) {
+            say!("collatio: warning: {}: {warning}", args.file.display());
+        }
+        write_stdout_bytes(&bytes)?;
+        return Ok(if piece.warnings.is_empty() {
+            EXIT_OK
+        } else {
+            EXIT_PARTIAL
+        });
+    }
     if let Some(target) = &args.export_midi {
-        export_midi(&piece, &args.file, target)?;
+        export_midi(&piece, target)?;
     }
     let text = match args.format {
         OutputFormat::Text => collatio::report::inspect::render_text(&piece),
@@ -165,8 +252,8 @@ fn inspect(args: InspectArgs) -> Result<i32> {
             json
         }
     };
-    for warning in &piece.warnings {
-        eprintln!("collatio: warning: {}: {warning}", args.file.display());
+    for warning in collatio::report::warnings::summarise(&piece.warnings) {
+        say!("collatio: warning: {}: {warning}", args.file.display());
     }
     write_stdout(&text)?;
     Ok(if piece.warnings.is_empty() {

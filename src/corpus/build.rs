@@ -12,22 +12,28 @@ pub const CORPUS_EXTENSIONS: [&str; 16] = [
     "oga", "m4a", "aif", "aiff",
 ];
 
-/// Every file under `dir` (recursively, hidden entries skipped) with a corpus extension, in
-/// sorted order.
+/// Every file under `dir` (recursively, hidden entries and symbolic links to folders skipped)
+/// with a corpus extension, in sorted order.
 pub fn corpus_files(dir: &std::path::Path) -> std::io::Result<Vec<std::path::PathBuf>> {
     let mut out = Vec::new();
     let mut stack = vec![dir.to_path_buf()];
     while let Some(folder) = stack.pop() {
         for entry in std::fs::read_dir(&folder)? {
-            let path = entry?.path();
+            let entry = entry?;
+            let path = entry.path();
             let hidden = path
                 .file_name()
                 .is_some_and(|n| n.to_string_lossy().starts_with('.'));
             if hidden {
                 continue;
             }
-            if path.is_dir() {
+            // Folders are descended only when they are folders themselves: a symbolic link to
+            // a folder could lead back up the tree (a loop, or two links doubling the tree at
+            // every level). Links to files are read like files.
+            if entry.file_type()?.is_dir() {
                 stack.push(path);
+            } else if path.is_dir() {
+                continue;
             } else if path
                 .extension()
                 .and_then(|e| e.to_str())

@@ -30,6 +30,8 @@ pub const MAGIC: &[u8; 16] = b"COLLATIO-CORPUS\0";
 /// Index format version.
 pub const VERSION: u32 = 2;
 const HEADER: usize = 16 + 4 + 8 + 32;
+/// Largest index file read, in bytes (4 GiB: about a million melodies of a few hundred notes).
+pub const MAX_INDEX_BYTES: u64 = 4 << 30;
 
 /// Problems with an index file.
 #[derive(Debug, thiserror::Error)]
@@ -149,7 +151,8 @@ impl CorpusIndex {
         Ok(out)
     }
 
-    /// Reads an index file's bytes, checking magic, version, length and checksum.
+    /// Reads an index file's bytes, checking magic, version, length and checksum, then every
+    /// field ([`super::validate`]).
     pub fn from_bytes(bytes: &[u8]) -> Result<CorpusIndex, IndexError> {
         if bytes.len() < 16 || &bytes[..16] != MAGIC {
             return Err(IndexError::Foreign);
@@ -177,10 +180,13 @@ impl CorpusIndex {
         if Sha256::digest(payload).as_slice() != &bytes[28..60] {
             return Err(IndexError::Corrupt("checksum mismatch".into()));
         }
-        codec()
+        let index: CorpusIndex = codec()
             .with_limit(declared.saturating_mul(4).max(1 << 20))
             .deserialize(payload)
-            .map_err(|e| IndexError::Corrupt(e.to_string()))
+            .map_err(|e| IndexError::Corrupt(e.to_string()))?;
+        super::validate::validate(index.ngram, NGRAM, &index.melodies, &index.postings)
+            .map_err(IndexError::Corrupt)?;
+        Ok(index)
     }
 
     /// The melodies containing a figure (sorted ids; empty when none).

@@ -5,6 +5,7 @@
 //! - [`melody`]: a melody in and out of the index's slim form.
 //! - [`build`]: an index from a folder of music files.
 //! - [`assess`]: commonness of passages and corpus-weighted similarity for a comparison.
+//! - [`validate`]: every field of an index checked on load.
 //! - [`source`]: the identity of an index file (path, hash, build settings) for the record.
 //!
 //! Search (retrieval, then alignment of every candidate) is a pipeline entry point:
@@ -18,6 +19,7 @@ pub mod build;
 pub mod index;
 pub mod melody;
 pub mod source;
+pub mod validate;
 
 pub use assess::{assess, slice, Commonness, CorpusSummary, SIMILAR_CANDIDATES, SIMILAR_SHARE};
 pub use build::{build_from_dir, corpus_files, Built, CORPUS_EXTENSIONS};

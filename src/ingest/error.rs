@@ -18,6 +18,10 @@ pub enum Problem {
     /// The file system refused.
     #[error("cannot read the file: {0}")]
     Io(#[from] std::io::Error),
+    /// A folder, device, pipe or socket where a file was expected (reading one could block
+    /// forever or never end).
+    #[error("not a regular file ({0}); give the path of a file")]
+    NotAFile(&'static str),
     /// Zero bytes.
     #[error("the file is empty")]
     Empty,
@@ -45,6 +49,23 @@ pub enum Problem {
     /// Well-formed XML that is not usable MusicXML.
     #[error("musicxml: {0}")]
     MusicXml(String),
+    /// XML whose elements nest deeper than the reader allows (checked before parsing).
+    #[error("{layer}: nesting too deep: elements nested more than {limit} levels")]
+    TooDeep {
+        /// The layer and document (`musicxml`, `mxl: META-INF/container.xml`).
+        layer: &'static str,
+        /// The most levels allowed.
+        limit: usize,
+    },
+    /// XML beyond another of the limits checked before parsing (attributes per element,
+    /// entity expansion).
+    #[error("{layer}: {what}")]
+    XmlLimit {
+        /// The layer and document (`musicxml`, `mxl: META-INF/container.xml`).
+        layer: &'static str,
+        /// What is beyond the limit.
+        what: String,
+    },
     /// A compressed MusicXML container that cannot be opened.
     #[error("mxl: {0}")]
     Mxl(String),

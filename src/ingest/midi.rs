@@ -111,12 +111,31 @@ pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
                     }
                 }
                 TrackEventKind::Meta(meta) => match meta {
-                    MetaMessage::Tempo(micros) => raw.tempo.push(TempoChange {
-                        ticks: tick,
-                        micros_per_quarter: f64::from(micros.as_int()),
-                    }),
+                    MetaMessage::Tempo(micros) => {
+                        let micros = f64::from(micros.as_int());
+                        if micros > 0.0 && super::TEMPO_RANGE.contains(&(60e6 / micros)) {
+                            raw.tempo.push(TempoChange {
+                                ticks: tick,
+                                micros_per_quarter: micros,
+                            });
+                        } else {
+                            raw.warnings.push(format!(
+                                "midi: track {}, tick {tick}: Set Tempo of {micros} µs per quarter note is outside {:?} quarter notes per minute; ignored",
+                                track_index + 1,
+                                super::TEMPO_RANGE
+                            ));
+                        }
+                    }
                     MetaMessage::TimeSignature(numerator, power, _, _) => {
                         time_signatures.push((tick, u32::from(numerator), u32::from(power)));
+                    }
+                    MetaMessage::KeySignature(sharps, _)
+                        if !super::FIFTHS_RANGE.contains(&i32::from(sharps)) =>
+                    {
+                        raw.warnings.push(format!(
+                            "midi: track {}, tick {tick}: key signature of {sharps} sharps is outside -7 to 7; ignored",
+                            track_index + 1
+                        ));
                     }
                     MetaMessage::KeySignature(sharps, minor) => {
                         raw.key_signatures.push(KeySignature {

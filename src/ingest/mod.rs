@@ -28,6 +28,15 @@ use sha2::{Digest, Sha256};
 use std::io::Read;
 use std::path::Path;
 
+/// Tempi read from a file, in quarter notes per minute: outside this range a tempo is taken as
+/// damage and ignored with a warning (the slowest Set Tempo a Standard MIDI File can hold,
+/// 2²⁴ − 1 µs per quarter note, is 3.6 per minute; SMF 1.0, "Set Tempo").
+pub const TEMPO_RANGE: std::ops::RangeInclusive<f64> = 3.0..=1_200.0;
+
+/// Key signatures as sharps (positive) or flats (negative): −7 to +7 (SMF 1.0 "Key Signature":
+/// "sf = -7: 7 flats … sf = 7: 7 sharps"; MusicXML 4.0 `<fifths>` in common practice).
+pub const FIFTHS_RANGE: std::ops::RangeInclusive<i32> = -7..=7;
+
 /// Limits on what a file may declare or contain; each has a command-line flag to raise it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 pub struct Limits {
@@ -132,12 +141,45 @@ pub struct ReadOptions {
 
 /// Reads a file from disk into the timeline.
 pub fn read_file(path: &Path, options: &ReadOptions) -> Result<Piece, IngestError> {
+    regular_file(path).map_err(|p| p.at(path))?;
     // Audio is streamed from disk (bounded memory) rather than read whole.
     if let Some(format) = sniff_audio(path) {
         return read_audio_file(path, format, options).map_err(|p| p.at(path));
     }
     let bytes = read_limited(path, &options.limits).map_err(|p| p.at(path))?;
     read_bytes(path, &bytes, options)
+}
+
+/// Refuses a path that is not a regular file (after following symbolic links): a folder, a
+/// device such as `/dev/zero`, a named pipe or a socket, whose reading could block or never end.
+pub fn regular_file(path: &Path) -> Result<(), Problem> {
+    let kind = std::fs::metadata(path)?.file_type();
+    if kind.is_file() {
+        return Ok(());
+    }
+    Err(Problem::NotAFile(file_kind(&kind)))
+}
+
+/// A file type in words.
+fn file_kind(kind: &std::fs::FileType) -> &'static str {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        if kind.is_fifo() {
+            return "a named pipe";
+        }
+        if kind.is_char_device() || kind.is_block_device() {
+            return "a device";
+        }
+        if kind.is_socket() {
+            return "a socket";
+        }
+    }
+    if kind.is_dir() {
+        "a folder"
+    } else {
+        "an entry of another kind"
+    }
 }
 
 /// The audio format of a file on disk, judged from its first 64 KiB.
@@ -151,6 +193,8 @@ fn sniff_audio(path: &Path) -> Option<Format> {
 /// Hashes and size-checks an audio file by streaming it, then decodes it from disk.
 fn read_audio_file(path: &Path, format: Format, options: &ReadOptions) -> Result<Piece, Problem> {
     let mut file = std::fs::File::open(path)?;
+    // The size on disk first, so that the error names it rather than the bytes read so far.
+    options.limits.check_file_bytes(file.metadata()?.len())?;
     let mut hasher = Sha256::new();
     let mut buffer = vec![0u8; 1 << 16];
     let mut total = 0u64;
@@ -241,7 +285,7 @@ fn read_limited(path: &Path, limits: &Limits) -> Result<Vec<u8>, Problem> {
     let declared = file.metadata()?.len();
     limits.check_file_bytes(declared)?;
     let mut bytes = Vec::with_capacity(declared as usize);
-    file.take(limit + 1).read_to_end(&mut bytes)?;
+    file.take(limit.saturating_add(1)).read_to_end(&mut bytes)?;
     limits.check_file_bytes(bytes.len() as u64)?;
     Ok(bytes)
 }

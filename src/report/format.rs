@@ -98,3 +98,47 @@ mod tests {
         assert_eq!(format_empirical_p(0.03, 99), "0.03");
     }
 }
+
+/// Text from a file or the command line made safe to print: control characters (terminal
+/// escape sequences, carriage returns, backspaces) and the bidirectional overrides that reorder
+/// what a reader sees are shown as `\u{…}` escapes; other characters are kept.
+pub fn printable(text: &str) -> String {
+    escape(text, |_| false)
+}
+
+/// A report of several lines made safe to print: as [`printable`], line breaks and tabs kept.
+pub fn printable_text(text: &str) -> String {
+    escape(text, |c| c == '\n' || c == '\t')
+}
+
+fn escape(text: &str, keep: impl Fn(char) -> bool) -> String {
+    let hidden = |c: char| {
+        !keep(c)
+            && (c.is_control() || matches!(c, '\u{202a}'..='\u{202e}' | '\u{2066}'..='\u{2069}'))
+    };
+    if !text.chars().any(hidden) {
+        return text.to_string();
+    }
+    text.chars()
+        .map(|c| {
+            if hidden(c) {
+                format!("\\u{{{:x}}}", u32::from(c))
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod printable_tests {
+    use super::{printable, printable_text};
+
+    #[test]
+    fn escapes_are_shown_not_obeyed() {
+        assert_eq!(printable("Fl\u{fb}te"), "Fl\u{fb}te");
+        assert_eq!(printable("a\u{1b}[2Jb\r\n"), "a\\u{1b}[2Jb\\u{d}\\u{a}");
+        assert_eq!(printable("x\u{202e}y"), "x\\u{202e}y");
+        assert_eq!(printable_text("a\tb\n\u{1b}[31m"), "a\tb\n\\u{1b}[31m");
+    }
+}

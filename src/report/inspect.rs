@@ -579,7 +579,7 @@ pub fn render_text(piece: &Piece) -> String {
     if !r.warnings.is_empty() {
         out.push('\n');
         out.push_str("warnings\n");
-        for w in &r.warnings {
+        for w in crate::report::warnings::summarise(&r.warnings) {
             out.push_str(&format!("  {w}\n"));
         }
     }

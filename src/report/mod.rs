@@ -6,7 +6,8 @@
 //!   the PDF out, [`notation`] is the notation model shared by the staves and the exports,
 //!   [`export`] writes MusicXML and MIDI.
 //! - Shared pieces: [`format`] (numbers and spans), [`cautions`] (cautions in one wording),
-//!   [`output`] (atomic writes that never replace an input), [`smf`] (the one MIDI writer).
+//!   [`output`] (atomic writes that never replace an input), [`smf`] (the one MIDI writer),
+//!   [`warnings`] (repeated warnings summarised).
 
 pub mod cautions;
 pub mod compare;
@@ -19,3 +20,4 @@ pub mod output;
 pub mod pdf;
 pub mod search;
 pub mod smf;
+pub mod warnings;

@@ -1,5 +1,7 @@
-//! Writing output files: atomically (a temporary file beside the target, then a rename), and
-//! never over an input or twice to one path. Every file collatio writes goes through here.
+//! Writing output files: atomically (a temporary file with an unpredictable name beside the
+//! target, then a rename), all outputs of a run or none, never over an input, twice to one
+//! path, or over anything that is not a regular file (a symbolic link, a device, a folder).
+//! Every file collatio writes goes through here.
 
 use std::path::{Path, PathBuf};
 
@@ -18,6 +20,14 @@ pub enum OutputError {
         /// The path.
         path: PathBuf,
     },
+    /// An output path names something other than a regular file.
+    #[error("output: {path} is {kind}; refusing to replace it with a file")]
+    NotAFile {
+        /// The output path.
+        path: PathBuf,
+        /// What it is.
+        kind: &'static str,
+    },
     /// Writing a file failed.
     #[error("output: {path}: {source}")]
     Io {
@@ -33,7 +43,9 @@ impl OutputError {
     pub fn is_usage(&self) -> bool {
         matches!(
             self,
-            OutputError::WouldOverwriteInput { .. } | OutputError::SameOutputTwice { .. }
+            OutputError::WouldOverwriteInput { .. }
+                | OutputError::SameOutputTwice { .. }
+                | OutputError::NotAFile { .. }
         )
     }
 }
@@ -59,11 +71,12 @@ pub fn same_file(a: &Path, b: &Path) -> bool {
     absolute(a) == absolute(b)
 }
 
-/// Refuses outputs that name an input or each other.
+/// Refuses outputs that name an input, each other, or something that is not a regular file.
 pub fn check_outputs(inputs: &[&Path], outputs: &[PathBuf]) -> Result<(), OutputError> {
     let inputs: Vec<PathBuf> = inputs.iter().map(|p| absolute(p)).collect();
     let mut seen: Vec<PathBuf> = Vec::new();
     for out in outputs {
+        check_replaceable(out)?;
         let abs = absolute(out);
         if inputs.contains(&abs) {
             return Err(OutputError::WouldOverwriteInput { path: out.clone() });
@@ -76,34 +89,102 @@ pub fn check_outputs(inputs: &[&Path], outputs: &[PathBuf]) -> Result<(), Output
     Ok(())
 }
 
-/// Writes bytes atomically: a temporary file beside the target, then a rename over it. The
-/// target's folder is created when missing.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), OutputError> {
+/// Refuses to replace a path that exists and is not a regular file: a symbolic link, a folder,
+/// a device such as `/dev/null` or a named pipe (replacing it by a file would break what it
+/// stood for).
+pub fn check_replaceable(path: &Path) -> Result<(), OutputError> {
+    match std::fs::symlink_metadata(path) {
+        Ok(meta) if !meta.file_type().is_file() => Err(OutputError::NotAFile {
+            path: path.to_path_buf(),
+            kind: kind_of(&meta.file_type()),
+        }),
+        _ => Ok(()),
+    }
+}
+
+/// A file type in words.
+fn kind_of(kind: &std::fs::FileType) -> &'static str {
+    if kind.is_symlink() {
+        return "a symbolic link";
+    }
+    if kind.is_dir() {
+        return "a folder";
+    }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        if kind.is_fifo() {
+            return "a named pipe";
+        }
+        if kind.is_char_device() || kind.is_block_device() {
+            return "a device";
+        }
+    }
+    "not a regular file"
+}
+
+/// An output written to a temporary file beside its target, not yet in place.
+struct Staged {
+    file: tempfile::NamedTempFile,
+    path: PathBuf,
+}
+
+/// Writes `bytes` into a new temporary file in the target's folder (created when missing),
+/// with an unpredictable name and exclusive creation (the `tempfile` crate).
+fn stage(path: &Path, bytes: &[u8]) -> Result<Staged, OutputError> {
     use std::io::Write;
     let io = |source| OutputError::Io {
         path: path.to_path_buf(),
         source,
     };
+    check_replaceable(path)?;
     let dir = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
         .map_or_else(|| PathBuf::from("."), Path::to_path_buf);
-    let name = path
-        .file_name()
-        .map_or_else(|| "output".into(), |n| n.to_string_lossy().into_owned());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| {
-        std::fs::create_dir_all(&dir)?;
-        let mut file = std::fs::File::create(&tmp)?;
-        file.write_all(bytes)?;
-        file.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    if let Err(e) = result {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(io(e));
+    std::fs::create_dir_all(&dir).map_err(io)?;
+    let mut builder = tempfile::Builder::new();
+    builder.prefix(".collatio-").suffix(".tmp");
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        // Readable by others as a plainly created file would be (the umask still applies).
+        builder.permissions(std::fs::Permissions::from_mode(0o644));
+    }
+    let mut file = builder.tempfile_in(&dir).map_err(io)?;
+    file.write_all(bytes).map_err(io)?;
+    file.as_file().sync_all().map_err(io)?;
+    Ok(Staged {
+        file,
+        path: path.to_path_buf(),
+    })
+}
+
+/// Writes every file of a run, or none: each is first written in full to a temporary file
+/// beside its target, and only when all are ready are they renamed into place. A failure
+/// before that leaves no output and no temporary file behind.
+pub fn write_all(files: &[(PathBuf, Vec<u8>)]) -> Result<(), OutputError> {
+    for (path, _) in files {
+        check_replaceable(path)?;
+    }
+    let staged = files
+        .iter()
+        .map(|(path, bytes)| stage(path, bytes))
+        .collect::<Result<Vec<_>, _>>()?;
+    for Staged { file, path } in staged {
+        check_replaceable(&path)?;
+        file.persist(&path).map_err(|e| OutputError::Io {
+            path: path.clone(),
+            source: e.error,
+        })?;
     }
     Ok(())
+}
+
+/// Writes bytes atomically: a temporary file beside the target, then a rename over it. The
+/// target's folder is created when missing; a target that is not a regular file is refused.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), OutputError> {
+    write_all(&[(path.to_path_buf(), bytes.to_vec())])
 }
 
 /// Writes one output for inputs `inputs`: refused when it names one of them, else atomic.
@@ -131,5 +212,40 @@ mod tests {
         .is_err());
         assert!(write_output(&[&input], &input, b"y").is_err());
         assert_eq!(std::fs::read(&input).unwrap(), b"x");
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn links_folders_and_devices_are_never_replaced() {
+        let dir = tempfile::tempdir().unwrap();
+        let victim = dir.path().join("victim.txt");
+        std::fs::write(&victim, b"keep").unwrap();
+        let link = dir.path().join("out.pdf");
+        std::os::unix::fs::symlink(&victim, &link).unwrap();
+        for target in [link.as_path(), dir.path(), Path::new("/dev/null")] {
+            let err = write_atomic(target, b"pdf").unwrap_err();
+            assert!(err.is_usage(), "{err}");
+        }
+        assert_eq!(std::fs::read(&victim).unwrap(), b"keep");
+        assert!(std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
+    }
+
+    #[test]
+    fn all_or_none() {
+        let dir = tempfile::tempdir().unwrap();
+        let good = dir.path().join("a.json");
+        let files = vec![
+            (good.clone(), b"{}".to_vec()),
+            (dir.path().to_path_buf(), b"x".to_vec()),
+        ];
+        assert!(write_all(&files).is_err());
+        assert!(!good.exists());
+        let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().collect();
+        assert!(names.is_empty(), "{names:?}");
+        write_all(&files[..1]).unwrap();
+        assert_eq!(std::fs::read(&good).unwrap(), b"{}");
     }
 }

@@ -11,10 +11,10 @@ pub struct HarmonyArgs {
     #[arg(long, help_heading = "HARMONY")]
     pub no_harmony: bool,
     /// Shuffled recurrence plots behind each harmonic passage's p-value.
-    #[arg(long, default_value_t = 99, value_name = "N", help_heading = "HARMONY")]
+    #[arg(value_parser = super::ranges::count(0, 10_000), long, default_value_t = 99, value_name = "N", help_heading = "HARMONY")]
     pub harmony_shuffles: usize,
     /// Largest p-value of a harmonic passage reported.
-    #[arg(
+    #[arg(value_parser = super::ranges::number(0.0, 1.0),
         long,
         default_value_t = 0.05,
         value_name = "P",
@@ -80,7 +80,7 @@ pub struct StatisticsArgs {
     )]
     pub references: u64,
     /// Shuffled pairs scored when the shuffle null is used (0 = no E-values from it).
-    #[arg(
+    #[arg(value_parser = super::ranges::count(0, 100_000),
         long,
         default_value_t = 100,
         value_name = "N",
@@ -132,7 +132,7 @@ impl StatisticsArgs {
 #[derive(Debug, Args)]
 pub struct AlignmentArgs {
     /// Points for the same pitch class after transposing.
-    #[arg(
+    #[arg(value_parser = super::ranges::points(),
         long,
         default_value_t = 8,
         allow_negative_numbers = true,
@@ -140,13 +140,13 @@ pub struct AlignmentArgs {
     )]
     pub pitch_match: i32,
     /// Points for a pitch one semitone off.
-    #[arg(long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::points(), long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub pitch_near: i32,
     /// Points for any other pitch.
-    #[arg(long, default_value_t = -8, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::points(), long, default_value_t = -8, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub pitch_mismatch: i32,
     /// Points for the same interval into both notes.
-    #[arg(
+    #[arg(value_parser = super::ranges::points(),
         long,
         default_value_t = 4,
         allow_negative_numbers = true,
@@ -154,7 +154,7 @@ pub struct AlignmentArgs {
     )]
     pub interval_match: i32,
     /// Points for intervals in one direction within two semitones.
-    #[arg(
+    #[arg(value_parser = super::ranges::points(),
         long,
         default_value_t = 0,
         allow_negative_numbers = true,
@@ -162,10 +162,10 @@ pub struct AlignmentArgs {
     )]
     pub interval_near: i32,
     /// Points for other intervals.
-    #[arg(long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::points(), long, default_value_t = -4, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub interval_mismatch: i32,
     /// Points for the same rhythm (inter-onset ratio to the previous note).
-    #[arg(
+    #[arg(value_parser = super::ranges::points(),
         long,
         default_value_t = 2,
         allow_negative_numbers = true,
@@ -173,7 +173,7 @@ pub struct AlignmentArgs {
     )]
     pub rhythm_match: i32,
     /// Points for rhythms within a factor of two.
-    #[arg(
+    #[arg(value_parser = super::ranges::points(),
         long,
         default_value_t = 0,
         allow_negative_numbers = true,
@@ -181,10 +181,10 @@ pub struct AlignmentArgs {
     )]
     pub rhythm_near: i32,
     /// Points for other rhythms.
-    #[arg(long, default_value_t = -3, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::points(), long, default_value_t = -3, allow_negative_numbers = true, help_heading = "ALIGNMENT")]
     pub rhythm_mismatch: i32,
     /// Points for the same metric level (downbeat, half-bar beat, other beat, between beats).
-    #[arg(
+    #[arg(value_parser = super::ranges::points(),
         long,
         default_value_t = 1,
         allow_negative_numbers = true,
@@ -192,25 +192,25 @@ pub struct AlignmentArgs {
     )]
     pub metric_match: i32,
     /// Cost of opening a gap (one unmatched note).
-    #[arg(long, default_value_t = 16, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::cost(), long, default_value_t = 16, help_heading = "ALIGNMENT")]
     pub gap_open: i32,
     /// Cost of each further unmatched note in a gap.
-    #[arg(long, default_value_t = 8, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::cost(), long, default_value_t = 8, help_heading = "ALIGNMENT")]
     pub gap_extend: i32,
     /// Cost per extra note when one note is split into repeated notes.
-    #[arg(long, default_value_t = 2, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::cost(), long, default_value_t = 2, help_heading = "ALIGNMENT")]
     pub fragment_penalty: i32,
     /// Most repeated notes one note may be split into (1 = no splitting, at most 3).
     #[arg(long, default_value_t = 3, value_parser = clap::value_parser!(u8).range(1..=3), help_heading = "ALIGNMENT")]
     pub max_fragments: u8,
     /// Lowest score reported as a passage.
-    #[arg(long, default_value_t = 60, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = clap::value_parser!(i32).range(1..=1_000_000_000), long, default_value_t = 60, help_heading = "ALIGNMENT")]
     pub min_score: i32,
     /// Fewest notes on each side of a passage.
-    #[arg(long, default_value_t = 5, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::count(1, super::ranges::MAX_NOTES), long, default_value_t = 5, help_heading = "ALIGNMENT")]
     pub min_notes: usize,
     /// Most passages reported.
-    #[arg(long, default_value_t = 20, help_heading = "ALIGNMENT")]
+    #[arg(value_parser = super::ranges::count(1, 10_000), long, default_value_t = 20, help_heading = "ALIGNMENT")]
     pub max_passages: usize,
 }
 

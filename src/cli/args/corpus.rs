@@ -40,11 +40,11 @@ pub struct SearchArgs {
     #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
     pub select: Option<SelectionSpec>,
     /// Best matches listed.
-    #[arg(long, default_value_t = 10, help_heading = "SEARCH")]
+    #[arg(value_parser = super::ranges::count(1, 10_000), long, default_value_t = 10, help_heading = "SEARCH")]
     pub top: usize,
     /// Candidates retrieved by shared figures and then aligned in full (raise it to look
     /// deeper in corpora full of near-duplicates; each costs one full alignment).
-    #[arg(long, default_value_t = 100, help_heading = "SEARCH")]
+    #[arg(value_parser = super::ranges::count(1, 1_000_000), long, default_value_t = 100, help_heading = "SEARCH")]
     pub candidates: usize,
     /// Corpus melodies the query is aligned with to fit the chance figures of its hits
     /// (the corpus null, Pearson 1998).

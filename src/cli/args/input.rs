@@ -88,7 +88,8 @@ pub struct InspectArgs {
     #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
     pub format: OutputFormat,
 
-    /// Also write the melody as a Standard MIDI File (e.g. a transcription to correct).
+    /// Also write the melody as a Standard MIDI File (e.g. a transcription to correct); `-`
+    /// writes it to standard output in place of the listing.
     #[arg(long, value_name = "FILE.mid", help_heading = "OUTPUT")]
     pub export_midi: Option<PathBuf>,
 }
@@ -126,21 +127,21 @@ impl std::str::FromStr for Meter {
 #[derive(Debug, Args)]
 pub struct AudioArgs {
     /// Analyse audio from this time on, in seconds.
-    #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
+    #[arg(value_parser = super::ranges::number(0.0, 86_400.0), long, value_name = "SECONDS", help_heading = "AUDIO")]
     pub from: Option<f64>,
     /// Analyse audio up to this time, in seconds.
-    #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
+    #[arg(value_parser = super::ranges::number(0.0, 86_400.0), long, value_name = "SECONDS", help_heading = "AUDIO")]
     pub to: Option<f64>,
     /// Meter of the recording, e.g. 3/4 (bars are estimated; 4/4 when not given).
     #[arg(long, value_name = "N/D", help_heading = "AUDIO")]
     pub meter: Option<Meter>,
     /// Time of a downbeat in the recording, in seconds (estimated when not given).
-    #[arg(long, value_name = "SECONDS", help_heading = "AUDIO")]
+    #[arg(value_parser = super::ranges::number(0.0, 86_400.0), long, value_name = "SECONDS", help_heading = "AUDIO")]
     pub downbeat: Option<f64>,
     /// Expected tempo in beats per minute: the tempo estimate then keeps to within about a
     /// third of it, which settles the metrical level (eighths or quarters); the beats still
     /// come from the recording.
-    #[arg(long, value_name = "BPM", help_heading = "AUDIO")]
+    #[arg(value_parser = super::ranges::number(20.0, 400.0), long, value_name = "BPM", help_heading = "AUDIO")]
     pub tempo: Option<f64>,
     /// Where a recording's melody comes from: `auto` (one line → pYIN, a mix → predominant
     /// melody), `solo` or `mix`.
@@ -153,7 +154,7 @@ pub struct AudioArgs {
     )]
     pub audio_melody: MelodySourceArg,
     /// Frequency of A4 (MIDI 69) used to name pitches, in Hz.
-    #[arg(
+    #[arg(value_parser = super::ranges::number(220.0, 880.0),
         long,
         default_value_t = 440.0,
         value_name = "HZ",
@@ -161,7 +162,7 @@ pub struct AudioArgs {
     )]
     pub a4: f64,
     /// Lowest melody pitch searched, in Hz (default B1).
-    #[arg(
+    #[arg(value_parser = super::ranges::number(20.0, 20_000.0),
         long,
         default_value_t = 61.735,
         value_name = "HZ",
@@ -169,7 +170,7 @@ pub struct AudioArgs {
     )]
     pub fmin: f64,
     /// Highest melody pitch searched, in Hz (default C#7).
-    #[arg(
+    #[arg(value_parser = super::ranges::number(20.0, 20_000.0),
         long,
         default_value_t = 2217.461,
         value_name = "HZ",
@@ -177,7 +178,7 @@ pub struct AudioArgs {
     )]
     pub fmax: f64,
     /// Longest audio analysed, in seconds.
-    #[arg(
+    #[arg(value_parser = super::ranges::number(0.01, 86_400.0),
         long,
         default_value_t = 1800.0,
         value_name = "SECONDS",
@@ -256,7 +257,7 @@ pub struct SelectionArgs {
     #[arg(long, help_heading = "SELECTION")]
     pub part: Option<String>,
     /// MIDI track, counted from 1.
-    #[arg(long, help_heading = "SELECTION")]
+    #[arg(value_parser = clap::value_parser!(u32).range(1..=65_535), long, help_heading = "SELECTION")]
     pub track: Option<u32>,
     /// MIDI channel, 1-16.
     #[arg(long, value_parser = clap::value_parser!(u8).range(1..=16), help_heading = "SELECTION")]
@@ -279,7 +280,7 @@ pub struct SelectionArgs {
 #[derive(Debug, Args)]
 pub struct LimitArgs {
     /// Largest input file, in MiB.
-    #[arg(
+    #[arg(value_parser = clap::value_parser!(u64).range(1..=1 << 20),
         long,
         default_value_t = 256,
         value_name = "MIB",
@@ -287,7 +288,7 @@ pub struct LimitArgs {
     )]
     pub max_file_mb: u64,
     /// Largest decompressed entry of an .mxl container, in MiB.
-    #[arg(
+    #[arg(value_parser = clap::value_parser!(u64).range(1..=1 << 16),
         long,
         default_value_t = 256,
         value_name = "MIB",
@@ -295,7 +296,7 @@ pub struct LimitArgs {
     )]
     pub max_decompressed_mb: u64,
     /// Most entries in an .mxl container.
-    #[arg(
+    #[arg(value_parser = clap::value_parser!(u64).range(1..=10_000_000),
         long,
         default_value_t = 10_000,
         value_name = "N",
@@ -303,7 +304,7 @@ pub struct LimitArgs {
     )]
     pub max_archive_entries: u64,
     /// Most notes in one file.
-    #[arg(
+    #[arg(value_parser = clap::value_parser!(u64).range(1..=super::ranges::MAX_NOTES),
         long,
         default_value_t = 2_000_000,
         value_name = "N",
@@ -311,7 +312,7 @@ pub struct LimitArgs {
     )]
     pub max_notes: u64,
     /// Most bars in one file (in performance order when that is asked for).
-    #[arg(
+    #[arg(value_parser = clap::value_parser!(u64).range(1..=10_000_000),
         long,
         default_value_t = 100_000,
         value_name = "N",

@@ -5,6 +5,7 @@ mod corpus;
 mod error;
 mod input;
 mod output;
+mod ranges;
 
 pub use analysis::{AlignmentArgs, HarmonyArgs, StatisticsArgs};
 pub use corpus::{BuildArgs, CorpusCommand, SearchArgs};
@@ -21,8 +22,10 @@ const EXIT_CODES: &str = "\
 Exit codes:
   0  success
   1  the command ran, but some input was partly skipped (see the warnings)
-  2  usage error (bad option, or a selection that matches nothing)
-  3  input error (a file could not be read at all)";
+  2  usage error (an option outside its range, a selection that matches nothing, or an
+     output that would replace an input or something that is not a regular file)
+  3  input error (a file could not be read at all: damaged, nested too deep, not a regular
+     file, a corrupt index)";
 
 /// Compare pieces of music for shared melodic material and document the evidence.
 #[derive(Debug, Parser)]
@@ -60,7 +63,7 @@ pub enum Command {
 Exit codes:
   0  success
   1  read with warnings (some content skipped or assumed; listed)
-  2  usage error (bad option, or a selection that matches nothing)
+  2  usage error (an option outside its range, or a selection that matches nothing)
   3  input error (the file could not be read)"
     )]
     Inspect(Box<InspectArgs>),
@@ -85,8 +88,8 @@ Examples:
 Exit codes:
   0  success
   1  compared, but some input was read with warnings
-  2  usage error (bad option, a selection that matches nothing, or an output that
-     would overwrite an input)
+  2  usage error (an option outside its range, a selection that matches nothing, or an
+     output that would replace an input or something that is not a regular file)
   3  input error (a file could not be read), or an output file could not be written"
     )]
     Compare(Box<CompareArgs>),

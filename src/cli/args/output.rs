@@ -14,10 +14,11 @@ pub enum OutputFormat {
 /// Files written besides the listing: the PDF exhibit, the JSON record, passage exports.
 #[derive(Debug, Args)]
 pub struct ExhibitArgs {
-    /// Write the PDF exhibit to FILE.
+    /// Write the PDF exhibit to FILE; `-` writes it to standard output in place of the listing.
     #[arg(long, value_name = "FILE", help_heading = "OUTPUT")]
     pub pdf: Option<PathBuf>,
-    /// Write the JSON record (as --format json prints it) to FILE.
+    /// Write the JSON record (as --format json prints it) to FILE; `-` prints it on standard
+    /// output in place of the listing.
     #[arg(long, value_name = "FILE", help_heading = "OUTPUT")]
     pub json: Option<PathBuf>,
     /// Write each passage as MusicXML and MIDI into DIR (created if missing).
@@ -53,6 +54,16 @@ pub enum PaperArg {
 }
 
 impl ExhibitArgs {
+    /// Whether the JSON record goes to standard output (`--json -`).
+    pub fn json_to_stdout(&self) -> bool {
+        self.json.as_deref() == Some(std::path::Path::new("-"))
+    }
+
+    /// Whether the PDF goes to standard output (`--pdf -`).
+    pub fn pdf_to_stdout(&self) -> bool {
+        self.pdf.as_deref() == Some(std::path::Path::new("-"))
+    }
+
     /// Whether any file output was asked for.
     pub fn any(&self) -> bool {
         self.pdf.is_some() || self.json.is_some() || self.export.is_some()
@@ -86,8 +97,8 @@ impl ExhibitArgs {
             piano_roll: false,
         };
         let outputs = Outputs {
-            pdf: self.pdf.clone(),
-            json: self.json.clone(),
+            pdf: self.pdf.clone().filter(|_| !self.pdf_to_stdout()),
+            json: self.json.clone().filter(|_| !self.json_to_stdout()),
             export_dir: self.export.clone(),
         };
         Ok((options, outputs))

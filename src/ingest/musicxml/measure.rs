@@ -11,6 +11,15 @@ use roxmltree::Node;
 
 /// Longest single duration accepted, in quarter notes; anything longer is a corrupt file.
 const MAX_DURATION_QUARTERS: f64 = 1.0e6;
+/// Octaves of written pitches read (MusicXML 4.0 `octave` type: "Octaves are represented by
+/// the numbers 0 to 9, where 4 indicates the octave started by middle C").
+const OCTAVES: std::ops::RangeInclusive<i32> = 0..=9;
+/// Largest alteration in semitones (triple sharps and flats, the most common practice writes).
+const MAX_ALTER: f64 = 3.0;
+/// Most beats in a time signature read (the longest additive meters in use have a few dozen).
+const MAX_BEATS: u32 = 128;
+/// Largest transposition of a part in semitones or diatonic steps (four octaves).
+const MAX_TRANSPOSE: f64 = 48.0;
 
 /// A note found in a measure, before ties are merged and time is made absolute.
 #[derive(Debug, Clone)]
@@ -100,11 +109,21 @@ impl PartState {
         let quarters = divisions / self.divisions;
         if !quarters.is_finite() || quarters.abs() > MAX_DURATION_QUARTERS {
             return Err(Problem::MusicXml(format!(
-                "measure {label}: duration {divisions} (at {} divisions per quarter) is not a usable length",
-                self.divisions
+                "measure {label}: duration {} (at {} divisions per quarter) is not a usable length",
+                shown(divisions),
+                shown(self.divisions)
             )));
         }
         Ok((quarters * f64::from(self.resolution)).round() as i64)
+    }
+}
+
+/// A number as a message shows it: very large and very small magnitudes in exponent form.
+fn shown(value: f64) -> String {
+    if value != 0.0 && !(1e-3..1e9).contains(&value.abs()) {
+        format!("{value:e}")
+    } else {
+        format!("{value}")
     }
 }
 
@@ -202,15 +221,30 @@ fn read_attributes(node: Node, cursor: i64, state: &mut PartState, out: &mut Mea
     }
     if let Some(t) = node.children().find(|c| c.has_tag_name("transpose")) {
         let chromatic = child_number(t, "chromatic").unwrap_or(0.0);
-        let diatonic = child_number(t, "diatonic").unwrap_or(0.0) as i32;
-        let octaves = child_number(t, "octave-change").unwrap_or(0.0) as i32;
-        state.transpose = (
-            diatonic + 7 * octaves,
-            chromatic + 12.0 * f64::from(octaves),
-        );
+        let diatonic = child_number(t, "diatonic").unwrap_or(0.0);
+        let octaves = child_number(t, "octave-change").unwrap_or(0.0);
+        let semitones = chromatic + 12.0 * octaves;
+        if semitones.abs() <= MAX_TRANSPOSE && diatonic.abs() <= MAX_TRANSPOSE {
+            state.transpose = (diatonic as i32 + 7 * octaves as i32, semitones);
+        } else {
+            out.warnings.push(format!(
+                "musicxml: measure {}: <transpose> of {} semitones is beyond {MAX_TRANSPOSE}; ignored",
+                out.label,
+                shown(semitones)
+            ));
+        }
     }
     if let Some(key) = child(node, "key") {
-        if let Some(fifths) = child_number(key, "fifths") {
+        let fifths = child_number(key, "fifths");
+        if let Some(f) = fifths
+            .filter(|f| !super::super::FIFTHS_RANGE.contains(&(*f as i32)) || f.fract() != 0.0)
+        {
+            out.warnings.push(format!(
+                "musicxml: measure {}: <fifths> {} is outside -7 to 7; key signature ignored",
+                out.label,
+                shown(f)
+            ));
+        } else if let Some(fifths) = fifths {
             let mode = match child_text(key, "mode") {
                 Some("major") => KeyMode::Major,
                 Some("minor") => KeyMode::Minor,
@@ -220,9 +254,14 @@ fn read_attributes(node: Node, cursor: i64, state: &mut PartState, out: &mut Mea
             out.keys.push((cursor, concert, mode));
         }
     }
-    if let Some(time) = child(node, "time") {
-        if let Some((n, d)) = time_signature(time) {
-            out.time.push((cursor, n, d));
+    if let Some(time) = child(node, "time").filter(|t| child(*t, "senza-misura").is_none()) {
+        match time_signature(time) {
+            Some((n, d)) if n <= MAX_BEATS => out.time.push((cursor, n, d)),
+            found => out.warnings.push(format!(
+                "musicxml: measure {}: {} is not a usable time signature (at most {MAX_BEATS} beats of a unit from 1 to 128); ignored",
+                out.label,
+                found.map_or_else(|| "<time>".to_string(), |(n, d)| format!("{n}/{d}"))
+            )),
         }
     }
 }
@@ -289,6 +328,23 @@ fn read_note(
             octave: child_text(p, "octave")?.parse().ok()?,
         })
     });
+    // MIDI note numbers run 0-127 (MIDI 1.0 Detailed Specification, Note On); a pitch that
+    // sounds outside them after transposition is as unusable as an octave outside 0-9.
+    let sounding = |s: &Spelling| s.transposed(state.transpose.0, state.transpose.1).midi();
+    let absurd = spelling.is_some_and(|s| {
+        !OCTAVES.contains(&s.octave)
+            || s.alter.abs() > MAX_ALTER
+            || !(0.0..=127.0).contains(&sounding(&s))
+    });
+    if let Some(s) = spelling.filter(|_| absurd) {
+        out.warnings.push(format!(
+            "musicxml: measure {}: a pitch with <octave> {} and <alter> {} is outside octaves {OCTAVES:?}, alterations of {MAX_ALTER} semitones or sounding MIDI notes 0-127; note skipped",
+            out.label,
+            s.octave,
+            shown(s.alter)
+        ));
+    }
+    let spelling = spelling.filter(|_| !absurd);
     if is_grace {
         if let Some(spelling) = spelling {
             out.graces.push(PendingGrace {
@@ -326,7 +382,7 @@ fn read_note(
         return Ok(());
     }
     let Some(spelling) = spelling else {
-        if child(node, "rest").is_none() && child(node, "pitch").is_some() {
+        if !absurd && child(node, "rest").is_none() && child(node, "pitch").is_some() {
             out.warnings.push(format!(
                 "musicxml: measure {}: a <pitch> without a usable step and octave; note skipped",
                 out.label
@@ -461,15 +517,26 @@ fn read_direction(
             out.tempos.push((position, bpm));
         }
     }
+    if let Some(&(_, bpm)) = out.tempos.last().filter(|(at, _)| *at == position) {
+        if !super::super::TEMPO_RANGE.contains(&bpm) {
+            out.tempos.pop();
+            out.warnings.push(format!(
+                "musicxml: measure {}: tempo {} quarter notes per minute is outside {:?}; ignored",
+                out.label,
+                shown(bpm),
+                super::super::TEMPO_RANGE
+            ));
+        }
+    }
     Ok(())
 }
 
-/// `<sound tempo>` is in quarter notes per minute (MusicXML 4.0); also notes jumps.
+/// `<sound tempo>` is in quarter notes per minute (MusicXML 4.0), checked against
+/// [`super::super::TEMPO_RANGE`] by the caller; also notes jumps.
 fn read_sound(node: Node, position: i64, out: &mut MeasureContent) {
     if let Some(bpm) = node
         .attribute("tempo")
         .and_then(|t| t.trim().parse::<f64>().ok())
-        .filter(|t| t.is_finite() && *t > 0.0)
     {
         out.tempos.push((position, bpm));
     }
@@ -499,7 +566,8 @@ fn metronome_quarters_per_minute(node: Node) -> Option<f64> {
         .parse()
         .ok()?;
     let quarters = per_minute * unit * (2.0 - 0.5f64.powi(dots));
-    (quarters.is_finite() && quarters > 0.0).then_some(quarters)
+    // Out-of-range values are refused with a warning by the caller.
+    Some(quarters)
 }
 
 fn read_barline(node: Node, marks: &mut RepeatMarks) {

@@ -22,6 +22,7 @@ pub(crate) mod decode;
 mod layout;
 mod measure;
 mod mxl;
+pub(crate) mod prescan;
 
 use super::{Limits, Problem, RawPiece};
 use measure::{MeasureContent, PartState};
@@ -59,6 +60,7 @@ struct PartSource<'a, 'input> {
 }
 
 fn read_text(text: &str, limits: &Limits, unfold: bool) -> Result<RawPiece, Problem> {
+    prescan::check(text, "musicxml", limits)?;
     let options = roxmltree::ParsingOptions {
         allow_dtd: true,
         ..roxmltree::ParsingOptions::default()

@@ -12,7 +12,7 @@ pub(crate) fn root_document(bytes: &[u8], limits: &Limits) -> Result<(String, Ve
     let entries = archive.len() as u64;
     limits.check_archive_entries(entries)?;
     let root = match read_entry(&mut archive, "META-INF/container.xml", limits)? {
-        Some(container) => root_from_container(&container)?,
+        Some(container) => root_from_container(&container, limits)?,
         None => guess_root(&archive)?,
     };
     match read_entry(&mut archive, &root, limits)? {
@@ -38,7 +38,7 @@ fn read_entry(
     let limit = limits.max_decompressed_bytes;
     let mut data = Vec::new();
     entry
-        .take(limit + 1)
+        .take(limit.saturating_add(1))
         .read_to_end(&mut data)
         .map_err(|e| Problem::Mxl(format!("entry '{name}' cannot be decompressed: {e}")))?;
     limits.check_decompressed_bytes(data.len() as u64)?;
@@ -46,8 +46,9 @@ fn read_entry(
 }
 
 /// The `full-path` of the first `<rootfile>` in `container.xml`.
-fn root_from_container(container: &[u8]) -> Result<String, Problem> {
+fn root_from_container(container: &[u8], limits: &Limits) -> Result<String, Problem> {
     let (text, _) = super::decode::decode(container);
+    super::prescan::check(&text, "mxl: META-INF/container.xml", limits)?;
     let doc = roxmltree::Document::parse(&text)
         .map_err(|e| Problem::Mxl(format!("META-INF/container.xml is not well-formed: {e}")))?;
     doc.descendants()

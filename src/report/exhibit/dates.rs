@@ -3,8 +3,12 @@
 
 use super::options::ExhibitError;
 
+/// The last second of 9999-12-31 UTC, the latest date a PDF can record.
+const MAX_EPOCH: i64 = 253_402_300_799;
+
 /// The date to print: `flag` if given (must be `YYYY-MM-DD`), else the UTC date of
-/// `source_date_epoch` (seconds since 1970, the reproducible-builds convention), else none.
+/// `source_date_epoch` (seconds since 1970, the reproducible-builds convention, from 0 to the
+/// end of 9999), else none.
 pub fn resolve_date(
     flag: Option<&str>,
     source_date_epoch: Option<&str>,
@@ -41,6 +45,15 @@ pub fn resolve_date(
                     "SOURCE_DATE_EPOCH '{text}' is not a whole number of seconds"
                 ))
             })?;
+            // The reproducible-builds specification of SOURCE_DATE_EPOCH: seconds since
+            // 1970-01-01 00:00:00 UTC, an integer as `date +%s` prints it. The PDF date
+            // (ISO 32000-1, 7.9.4) has a four-digit year, so the last second it can hold is
+            // 9999-12-31 23:59:59 UTC.
+            if !(0..=MAX_EPOCH).contains(&secs) {
+                return Err(ExhibitError::BadDate(format!(
+                    "SOURCE_DATE_EPOCH '{text}' is outside 0 to {MAX_EPOCH} (1970-01-01 to 9999-12-31)"
+                )));
+            }
             let (y, m, d) = civil_from_days(secs.div_euclid(86_400));
             Ok(Some(format!("{y:04}-{m:02}-{d:02}")))
         }
@@ -86,5 +99,12 @@ mod tests {
         );
         assert_eq!(resolve_date(None, None).unwrap(), None);
         assert!(resolve_date(None, Some("yesterday")).is_err());
+        // The first second of the year 10000, and before 1970: no four-digit PDF year.
+        assert!(resolve_date(None, Some("253402300800")).is_err());
+        assert!(resolve_date(None, Some("-1")).is_err());
+        assert_eq!(
+            resolve_date(None, Some("253402300799")).unwrap().as_deref(),
+            Some("9999-12-31")
+        );
     }
 }

@@ -40,7 +40,7 @@ pub use options::{default_label, ExhibitError, ExhibitOptions, Outputs};
 pub use prepared::Exhibit;
 
 use crate::findings::Findings;
-use crate::report::output::{check_outputs, write_atomic, OutputError};
+use crate::report::output::{check_outputs, write_all, OutputError};
 use std::path::{Path, PathBuf};
 
 /// What [`write_exhibit`] wrote.
@@ -50,6 +50,42 @@ pub struct Written {
     pub files: Vec<PathBuf>,
     /// Pages of the PDF, when one was written.
     pub pdf_pages: usize,
+    /// Passage exports of an earlier run removed from the export folder.
+    pub removed: Vec<PathBuf>,
+}
+
+/// Removes the passage exports (`passage-NN.musicxml`, `passage-NN.mid`, regular files only)
+/// in `dir` that this run did not write, so that the folder holds one run's passages.
+fn remove_stale_exports(dir: &Path, written: &[PathBuf]) -> Result<Vec<PathBuf>, OutputError> {
+    let io = |source| OutputError::Io {
+        path: dir.to_path_buf(),
+        source,
+    };
+    let ours = |name: &str| {
+        let stem = name
+            .strip_suffix(".musicxml")
+            .or_else(|| name.strip_suffix(".mid"));
+        stem.and_then(|s| s.strip_prefix("passage-"))
+            .is_some_and(|n| !n.is_empty() && n.bytes().all(|c| c.is_ascii_digit()))
+    };
+    let mut removed = Vec::new();
+    for entry in std::fs::read_dir(dir).map_err(io)? {
+        let entry = entry.map_err(io)?;
+        let path = entry.path();
+        let is_file = entry.file_type().map_err(io)?.is_file();
+        let name = entry.file_name();
+        if is_file
+            && name.to_str().is_some_and(ours)
+            && !written
+                .iter()
+                .any(|w| w.file_name() == Some(name.as_os_str()))
+        {
+            std::fs::remove_file(&path).map_err(io)?;
+            removed.push(path);
+        }
+    }
+    removed.sort();
+    Ok(removed)
 }
 
 /// Writes the requested outputs. The JSON is the record `compare --format json` prints.
@@ -81,38 +117,44 @@ pub fn write_exhibit(
         all.push(m.clone());
     }
     check_outputs(&inputs, &all)?;
+    // Everything is rendered first and then written all together, so that a failure leaves
+    // no output of this run beside those of an earlier one.
     let mut written = Written::default();
+    let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
     if let Some(path) = &outputs.json {
         let record = crate::report::compare::record(findings);
         let mut json = serde_json::to_string_pretty(&record)?;
         json.push('\n');
-        write_atomic(path, json.as_bytes())?;
-        written.files.push(path.clone());
+        files.push((path.clone(), json.into_bytes()));
+    }
+    for (((xml_path, mid_path), view), p) in export_files
+        .iter()
+        .zip(&exhibit.views)
+        .zip(&findings.passages)
+    {
+        let p = &p.passage;
+        let xml = crate::report::export::musicxml(&exhibit, p, view);
+        files.push((xml_path.clone(), xml.into_bytes()));
+        files.push((
+            mid_path.clone(),
+            crate::report::export::midi(&exhibit, p, view)?,
+        ));
+    }
+    if let Some(path) = &outputs.pdf {
+        let (bytes, pages) = crate::report::pdf::render(&exhibit)?;
+        files.push((path.clone(), bytes));
+        written.pdf_pages = pages;
     }
     if let Some(dir) = &outputs.export_dir {
         std::fs::create_dir_all(dir).map_err(|source| OutputError::Io {
             path: dir.clone(),
             source,
         })?;
-        for (((xml_path, mid_path), view), p) in export_files
-            .iter()
-            .zip(&exhibit.views)
-            .zip(&findings.passages)
-        {
-            let p = &p.passage;
-            let xml = crate::report::export::musicxml(&exhibit, p, view);
-            write_atomic(xml_path, xml.as_bytes())?;
-            written.files.push(xml_path.clone());
-            let midi = crate::report::export::midi(&exhibit, p, view)?;
-            write_atomic(mid_path, &midi)?;
-            written.files.push(mid_path.clone());
-        }
     }
-    if let Some(path) = &outputs.pdf {
-        let (bytes, pages) = crate::report::pdf::render(&exhibit)?;
-        write_atomic(path, &bytes)?;
-        written.files.push(path.clone());
-        written.pdf_pages = pages;
+    write_all(&files)?;
+    written.files = files.into_iter().map(|(path, _)| path).collect();
+    if let Some(dir) = &outputs.export_dir {
+        written.removed = remove_stale_exports(dir, &written.files)?;
     }
     Ok(written)
 }

@@ -53,6 +53,13 @@ pub struct Outputs {
     pub export_dir: Option<PathBuf>,
 }
 
+impl Outputs {
+    /// Whether any file is to be written.
+    pub fn any(&self) -> bool {
+        self.pdf.is_some() || self.json.is_some() || self.export_dir.is_some()
+    }
+}
+
 /// Why the exhibit could not be written.
 #[derive(Debug, thiserror::Error)]
 pub enum ExhibitError {
