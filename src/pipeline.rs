@@ -27,6 +27,7 @@ use crate::align::AlignParams;
 use crate::align::{best_score, self_score};
 use crate::compare::differences::differences;
 use crate::compare::harmony::harmonic_evidence;
+use crate::compare::pairing::choose_pairing;
 use crate::compare::recurrence::interval_recurrences;
 use crate::compare::sync::{follow_score, SyncSummary};
 use crate::compare::{compare, Relatedness, Side};
@@ -117,6 +118,11 @@ pub fn compare_works(
     settings: &CompareSettings,
     corpus: Option<CorpusRef<'_>>,
 ) -> Findings {
+    let (mut a, mut b) = (a, b);
+    let pairings = choose_pairing(&mut a, &mut b, settings.melody_candidates, &settings.align);
+    // The strongest of several pairings is reported: its chance figures are multiplied by the
+    // number of pairings checked (Bonferroni), so that the choice does not flatter them.
+    let tested = pairings.len().max(1) as f64;
     let (a, b, synchronisation) = follow(a, b, settings.sync.as_ref());
     let comparison = compare(&a, &b, &settings.align);
     let (seq_a, seq_b) = (Sequence::from_piece(&a), Sequence::from_piece(&b));
@@ -167,7 +173,10 @@ pub fn compare_works(
                 evidence.push(Evidence::Harmony);
             }
             Finding {
-                significance: chance.as_ref().and_then(|m| m.significance(passage.score)),
+                significance: chance
+                    .as_ref()
+                    .and_then(|m| m.significance(passage.score))
+                    .map(|s| s.for_tests(tested)),
                 commonness,
                 evidence,
                 differences: differences(&a, &b, &passage),
@@ -187,6 +196,7 @@ pub fn compare_works(
         corpus: corpus_summary,
         harmony,
         synchronisation,
+        pairings,
         recurrences: interval_recurrences(&seq_a, &seq_b),
         settings: settings.clone(),
         a,

@@ -1,0 +1,157 @@
+//! Which lines to compare: the best few candidate melody lines of each work (ranked by
+//! melody-likeness when read, [`crate::ingest::likeness`]) are paired, every pairing is scanned
+//! for its best local alignment, and the pairing with the highest relatedness (the best score
+//! over the geometric mean of the two self scores, as in [`crate::compare`]) is the one
+//! compared in full. Every pairing checked is kept with its figures, so that a report can say
+//! what was and was not compared.
+
+use crate::align::{best_score, self_score, AlignParams};
+use crate::compare::Relatedness;
+use crate::features::Sequence;
+use crate::timeline::{MelodyCandidate, Piece};
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// Candidate lines per work paired by default.
+pub const DEFAULT_CANDIDATES: usize = 3;
+
+/// One candidate line of a pairing, as the record names it.
+#[derive(Debug, Clone, Serialize)]
+pub struct PairedLine {
+    /// Rank of the line among its work's candidates, 1 = most melody-like.
+    pub rank: usize,
+    /// Part id.
+    pub part: String,
+    /// Part, staff and voice in words.
+    pub label: String,
+    /// Melody-likeness in [0, 1] (`null` when the line was the only one, or asked for).
+    pub likeness: Option<f64>,
+    /// Notes in the line.
+    pub notes: usize,
+}
+
+/// One pairing of a line of A with a line of B, scanned for its best passage.
+#[derive(Debug, Clone, Serialize)]
+pub struct PairingCheck {
+    /// The line of A.
+    pub a: PairedLine,
+    /// The line of B.
+    pub b: PairedLine,
+    /// Relatedness of the two lines as wholes, with its scores.
+    pub relatedness: Relatedness,
+    /// Whether the best passage reaches the reporting threshold (`min_score`).
+    pub shares_passage: bool,
+    /// Whether this is the pairing compared in full and reported.
+    pub chosen: bool,
+}
+
+/// The lines of a piece to pair: its first `limit` candidates, or the melody it already has
+/// when it has none (recordings, corpus melodies).
+fn lines(piece: &Piece, limit: usize) -> Vec<MelodyCandidate> {
+    if piece.candidates.len() <= 1 {
+        let label = piece.parts.get(piece.selection.part).map_or_else(
+            || "the melody".to_string(),
+            |p| {
+                if p.name.is_empty() {
+                    p.id.clone()
+                } else {
+                    format!("{} \"{}\"", p.id, p.name)
+                }
+            },
+        );
+        let label = piece
+            .candidates
+            .first()
+            .map_or(label, |c| c.label.clone());
+        return vec![MelodyCandidate {
+            selection: piece.selection.clone(),
+            label,
+            likeness: f64::NAN,
+            features: Default::default(),
+            melody: piece.melody.clone(),
+        }];
+    }
+    piece.candidates.iter().take(limit.max(1)).cloned().collect()
+}
+
+fn paired_line(piece: &Piece, rank: usize, line: &MelodyCandidate) -> PairedLine {
+    PairedLine {
+        rank: rank + 1,
+        part: piece
+            .parts
+            .get(line.selection.part)
+            .map_or_else(String::new, |p| p.id.clone()),
+        label: line.label.clone(),
+        likeness: line.likeness.is_finite().then_some(line.likeness),
+        notes: line.melody.len(),
+    }
+}
+
+/// Pairs the first `limit` candidate lines of each work, scans every pairing, and leaves in
+/// `a` and `b` the lines of the pairing with the highest relatedness (ties: the higher best
+/// score, then the more melody-like lines, A's first). Returns every pairing checked, in the
+/// order A's rank, then B's rank.
+pub fn choose_pairing(
+    a: &mut Piece,
+    b: &mut Piece,
+    limit: usize,
+    params: &AlignParams,
+) -> Vec<PairingCheck> {
+    let (lines_a, lines_b) = (lines(a, limit), lines(b, limit));
+    let sequences = |piece: &mut Piece, lines: &[MelodyCandidate]| -> Vec<(Sequence, i32)> {
+        let kept = std::mem::take(&mut piece.melody);
+        let out = lines
+            .iter()
+            .map(|line| {
+                piece.melody.clone_from(&line.melody);
+                let seq = Sequence::from_piece(piece);
+                let own = self_score(&seq, (0, seq.len().saturating_sub(1)), params);
+                (seq, own)
+            })
+            .collect();
+        piece.melody = kept;
+        out
+    };
+    let (seq_a, seq_b) = (sequences(a, &lines_a), sequences(b, &lines_b));
+    let pairs: Vec<(usize, usize)> = (0..lines_a.len())
+        .flat_map(|i| (0..lines_b.len()).map(move |j| (i, j)))
+        .collect();
+    let scores: Vec<i32> = if pairs.len() == 1 {
+        // One pairing: the full comparison measures it; no scan needed here.
+        vec![best_score(&seq_a[0].0, &seq_b[0].0, params)]
+    } else {
+        pairs
+            .par_iter()
+            .map(|&(i, j)| best_score(&seq_a[i].0, &seq_b[j].0, params))
+            .collect()
+    };
+    let mut checks: Vec<PairingCheck> = pairs
+        .iter()
+        .zip(&scores)
+        .map(|(&(i, j), &score)| PairingCheck {
+            a: paired_line(a, i, &lines_a[i]),
+            b: paired_line(b, j, &lines_b[j]),
+            relatedness: Relatedness::of(score, seq_a[i].1, seq_b[j].1),
+            shares_passage: score >= params.min_score,
+            chosen: false,
+        })
+        .collect();
+    let best = (0..checks.len()).max_by(|&x, &y| {
+        let (p, q) = (&checks[x], &checks[y]);
+        p.relatedness
+            .value
+            .total_cmp(&q.relatedness.value)
+            .then(p.relatedness.best_score.cmp(&q.relatedness.best_score))
+            .then((q.a.rank + q.b.rank).cmp(&(p.a.rank + p.b.rank)))
+            .then(q.a.rank.cmp(&p.a.rank))
+    });
+    if let Some(k) = best {
+        checks[k].chosen = true;
+        let (i, j) = pairs[k];
+        a.selection = lines_a[i].selection.clone();
+        a.melody = lines_a[i].melody.clone();
+        b.selection = lines_b[j].selection.clone();
+        b.melody = lines_b[j].melody.clone();
+    }
+    checks
+}
