@@ -13,12 +13,14 @@ program measures. The files, all from music21's bundled public-domain corpus (ve
 scripts/requirements.txt), and where the melody is:
 
 - chorales: Bach's four-part chorales (`bach/`), the part named Soprano (the chorale tune);
-- songs: songs and arias with piano (voice part named by the file), the voice;
+- songs: songs and arias with piano, a hymn and part-songs (SONGS below), the part with the
+  tune;
 - quartets: string quartets of Haydn, Mozart and Beethoven, the first violin (by the
   convention of the classical quartet, where it carries the tune);
-- folk with chords: folk tunes of O'Neill's "Music of Ireland" (oneills1850) written as a MIDI
+- folk with chords: the folk tunes of O'Neill's "Music of Ireland" (oneills1850) written as a MIDI
   file with neutral track names, with an accompaniment built here in the manner of a lead
-  sheet played on a keyboard (a triad per bar, struck on every beat, closed position from F3
+  sheet played on a keyboard; then the first three tunes of each file of the Essen folksong
+  collection (essenFolksong), up to 120 tunes (a triad per bar, struck on every beat, closed position from F3
   upward, chosen as the triad of the key's I, IV or V holding most of the bar's melody notes;
   the chord root in octave 2 on each bar's downbeat), the tune.
 
@@ -56,20 +58,16 @@ FEATURES = [
 ]
 PENALTY = 1.0
 
-# Songs and arias with piano in the corpus, and a pattern naming their voice part.
-SONGS = [
-    "beach/prayer_of_a_tired_child.musicxml",
-    "johnson_j_r/lift_every_voice.mxl",
-    "liliuokalani/aloha_oe.mxl",
-    "schubert/Lindenbaum.xml",
-    "schumann_robert/opus48no2.mxl",
-    "schumann_robert/dichterliebe_no2.xml",
-    "verdi/laDonnaEMobile.mxl",
-    "handel/rinaldo/Lascia_chio_pianga.mxl",
-    "leadSheet/fosterBrownHair.mxl",
-    "leadSheet/berlinAlexandersRagtime.mxl",
-]
-VOICE = re.compile(r"voice|voc|singstimme|sopran|tenor|canto|duca|almirena|melod|lead|solo", re.I)
+# Songs with piano, and hymns and part-songs with a known tune, in the corpus: the part that
+# carries the tune, by its name in the file (checked by reading each score).
+SONGS = {
+    "beach/prayer_of_a_tired_child.musicxml": "Soprano I",  # SSAA and piano: the first soprano
+    "johnson_j_r/lift_every_voice.mxl": "Soprano",  # hymn setting: the soprano
+    "liliuokalani/aloha_oe.mxl": "Solo Voice",  # solo voice, choir and piano: the solo
+    "schubert/Lindenbaum.xml": "Voice",  # voice and piano
+    "schumann_robert/dichterliebe_no2.xml": 1,  # voice and piano; parts unnamed: the first
+    "handel/rinaldo/Lascia_chio_pianga.mxl": 1,  # voice and piano; the voice unnamed: the first
+}
 
 
 def inspect(collatio, path):
@@ -115,11 +113,14 @@ def chorales(collatio):
 
 def songs(collatio):
     root = corpus_root()
-    for rel in SONGS:
+    for rel, which in SONGS.items():
         record = inspect(collatio, root / rel)
         if not record:
             continue
-        melody = part_named(record, VOICE)
+        if isinstance(which, int):
+            melody = record["parts"][which - 1]["id"]
+        else:
+            melody = next((p["id"] for p in record["parts"] if p["name"] == which), None)
         rows = melody and labelled(record, melody)
         if rows:
             yield rel, rows
@@ -197,15 +198,32 @@ def accompanied_midi(events, meter, fifths_tonic, dest):
     mid.save(dest)
 
 
-def folk(collatio, count):
+def folk_scores():
+    """(source, score): every tune of O'Neill's collection, then the first three of each file
+    of the Essen folksong collection."""
     root = corpus_root()
+    for path in sorted(corpus.getComposer("oneills1850")):
+        try:
+            yield str(pathlib.Path(path).relative_to(root)), first_score(converter.parse(path))
+        except Exception:  # noqa: BLE001 - skip what music21 cannot read
+            continue
+    for path in sorted(corpus.getComposer("essenFolksong")):
+        try:
+            parsed = converter.parse(path)
+        except Exception:  # noqa: BLE001
+            continue
+        scores = list(getattr(parsed, "scores", [parsed]))[:3]
+        for k, score in enumerate(scores):
+            yield f"{pathlib.Path(path).relative_to(root)}#{k + 1}", score
+
+
+def folk(collatio, count):
     with tempfile.TemporaryDirectory() as tmp:
         taken = 0
-        for path in sorted(corpus.getComposer("oneills1850")):
+        for source, score in folk_scores():
             if taken >= count:
                 break
             try:
-                score = first_score(converter.parse(path))
                 m = melody_of(score)
                 key = score.analyze("key")
             except Exception:  # noqa: BLE001 - skip what music21 cannot read
@@ -220,7 +238,7 @@ def folk(collatio, count):
                 if record else None
             rows = melody and labelled(record, melody)
             if rows:
-                yield str(pathlib.Path(path).relative_to(root)), rows
+                yield source, rows
                 taken += 1
 
 

@@ -148,10 +148,19 @@ pub fn choose_pairing(
     if let Some(k) = best {
         checks[k].chosen = true;
         let (i, j) = pairs[k];
-        a.selection = lines_a[i].selection.clone();
-        a.melody = lines_a[i].melody.clone();
-        b.selection = lines_b[j].selection.clone();
-        b.melody = lines_b[j].melody.clone();
+        let note = (checks.len() > 1).then(|| {
+            format!(
+                "; compared because its pairing was the strongest of the {} checked",
+                checks.len()
+            )
+        });
+        for (piece, line) in [(&mut *a, &lines_a[i]), (&mut *b, &lines_b[j])] {
+            piece.selection = line.selection.clone();
+            if let Some(note) = &note {
+                piece.selection.reason.push_str(note);
+            }
+            piece.melody = line.melody.clone();
+        }
     }
     checks
 }

@@ -27,11 +27,14 @@ pub const FEATURE_NAMES: [&str; 13] = [
 ];
 
 /// Intercept of the logistic model (fitted; see the module comment).
-pub const INTERCEPT: f64 = 0.0;
+pub const INTERCEPT: f64 = -1.277696;
 
 /// Weights of the logistic model, in the order of [`FEATURE_NAMES`] (fitted; see the module
 /// comment).
-pub const WEIGHTS: [f64; 13] = [0.0; 13];
+pub const WEIGHTS: [f64; 13] = [
+    1.912332, -0.416848, -0.797278, -0.029782, -0.813143, -0.469427, 3.209851, 5.156198,
+    0.169545, -0.677856, 0.757238, -0.532076, -0.528267,
+];
 
 /// Two lines whose melody-likeness differs by less than this are "close": the reports say
 /// so and suggest naming the melody. A stated margin, not fitted.
