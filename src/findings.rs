@@ -134,6 +134,8 @@ pub struct Findings {
 /// One melody of a corpus that shares passages with a query.
 #[derive(Debug, Clone, Serialize)]
 pub struct Hit {
+    /// The query line that found it: part, staff and voice in words.
+    pub query_line: String,
     /// Path of the melody inside the corpus.
     pub path: String,
     /// Title, when the file had one.
@@ -155,8 +157,10 @@ pub struct SearchFindings {
     pub corpus: crate::corpus::IndexSource,
     /// Alignment settings used.
     pub align: AlignParams,
-    /// What the hits' chance figures rest on, when computed.
+    /// What the hits' chance figures rest on, when computed (for the most melody-like line).
     pub chance: Option<ChanceSummary>,
+    /// The query lines searched for, most melody-like first.
+    pub query_lines: Vec<String>,
     /// Best first.
     pub hits: Vec<Hit>,
 }

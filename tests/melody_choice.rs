@@ -39,7 +39,10 @@ fn weights_are_the_fitted_ones() {
     assert_eq!(names, FEATURE_NAMES);
     assert!((set["intercept"].as_f64().unwrap() - INTERCEPT).abs() < 1e-6);
     for (k, w) in set["weights"].as_array().unwrap().iter().enumerate() {
-        assert!((w.as_f64().unwrap() - WEIGHTS[k]).abs() < 1e-6, "weight {k}");
+        assert!(
+            (w.as_f64().unwrap() - WEIGHTS[k]).abs() < 1e-6,
+            "weight {k}"
+        );
     }
 }
 
@@ -76,15 +79,16 @@ fn melody_ranked_first_on_held_out_half() {
         entry.0 += 1;
         entry.1 += usize::from(hit);
     }
-    let (n, k) = per
-        .values()
-        .fold((0, 0), |(n, k), (a, b)| (n + a, k + b));
+    let (n, k) = per.values().fold((0, 0), |(n, k), (a, b)| (n + a, k + b));
     for (c, (a, b)) in &per {
         eprintln!("{c}: {b}/{a}");
     }
     assert!(n >= 100, "held-out files: {n}");
     let accuracy = k as f64 / n as f64;
-    assert!(accuracy >= 0.95, "ranked first on held-out half: {accuracy:.3}");
+    assert!(
+        accuracy >= 0.95,
+        "ranked first on held-out half: {accuracy:.3}"
+    );
 }
 
 fn settings() -> CompareSettings {
@@ -193,6 +197,10 @@ fn explicit_selection_wins() {
     };
     let f = compare("tune1-neutral.mid", "tune1-plain.mid", choice);
     assert_eq!(f.pairings.len(), 1);
-    assert!(f.a.selection.reason.contains("as asked"), "{}", f.a.selection.reason);
+    assert!(
+        f.a.selection.reason.contains("as asked"),
+        "{}",
+        f.a.selection.reason
+    );
     assert!(share_found(&f) < 0.5);
 }

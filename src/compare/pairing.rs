@@ -1,8 +1,10 @@
 //! Which lines to compare: the best few candidate melody lines of each work (ranked by
 //! melody-likeness when read, [`crate::ingest::likeness`]) are paired, every pairing is scanned
-//! for its best local alignment, and the pairing with the highest relatedness (the best score
-//! over the geometric mean of the two self scores, as in [`crate::compare`]) is the one
-//! compared in full. Every pairing checked is kept with its figures, so that a report can say
+//! for its best local alignment, and the pairing with the strongest passage (the highest best
+//! local score; ties: the longer lines, then the higher relatedness, as in [`crate::compare`])
+//! is the one compared in full. Relatedness alone would favour a short line that doubles part
+//! of the tune (a saxophone joining the voice for eight bars) over the line that carries all
+//! of it. Every pairing checked is kept with its figures, so that a report can say
 //! what was and was not compared.
 
 use crate::align::{best_score, self_score, AlignParams};
@@ -45,6 +47,30 @@ pub struct PairingCheck {
     pub chosen: bool,
 }
 
+/// The label of the line a piece's melody was taken from: its candidate's, or its part's.
+pub fn line_label(piece: &Piece) -> String {
+    let s = &piece.selection;
+    piece
+        .candidates
+        .iter()
+        .find(|c| {
+            c.selection.part == s.part
+                && c.selection.staff == s.staff
+                && c.selection.voice == s.voice
+        })
+        .map(|c| c.label.clone())
+        .or_else(|| {
+            piece.parts.get(s.part).map(|p| {
+                if p.name.is_empty() {
+                    p.id.clone()
+                } else {
+                    format!("{} \"{}\"", p.id, p.name)
+                }
+            })
+        })
+        .unwrap_or_else(|| "the melody".to_string())
+}
+
 /// The lines of a piece to pair: its first `limit` candidates, or the melody it already has
 /// when it has none (recordings, corpus melodies).
 fn lines(piece: &Piece, limit: usize) -> Vec<MelodyCandidate> {
@@ -59,10 +85,7 @@ fn lines(piece: &Piece, limit: usize) -> Vec<MelodyCandidate> {
                 }
             },
         );
-        let label = piece
-            .candidates
-            .first()
-            .map_or(label, |c| c.label.clone());
+        let label = piece.candidates.first().map_or(label, |c| c.label.clone());
         return vec![MelodyCandidate {
             selection: piece.selection.clone(),
             label,
@@ -71,7 +94,12 @@ fn lines(piece: &Piece, limit: usize) -> Vec<MelodyCandidate> {
             melody: piece.melody.clone(),
         }];
     }
-    piece.candidates.iter().take(limit.max(1)).cloned().collect()
+    piece
+        .candidates
+        .iter()
+        .take(limit.max(1))
+        .cloned()
+        .collect()
 }
 
 fn paired_line(piece: &Piece, rank: usize, line: &MelodyCandidate) -> PairedLine {
@@ -88,8 +116,8 @@ fn paired_line(piece: &Piece, rank: usize, line: &MelodyCandidate) -> PairedLine
 }
 
 /// Pairs the first `limit` candidate lines of each work, scans every pairing, and leaves in
-/// `a` and `b` the lines of the pairing with the highest relatedness (ties: the higher best
-/// score, then the more melody-like lines, A's first). Returns every pairing checked, in the
+/// `a` and `b` the lines of the pairing with the highest best score (ties: the more notes in
+/// the two lines, the higher relatedness, then the more melody-like lines, A's first). Returns every pairing checked, in the
 /// order A's rank, then B's rank.
 pub fn choose_pairing(
     a: &mut Piece,
@@ -139,9 +167,10 @@ pub fn choose_pairing(
     let best = (0..checks.len()).max_by(|&x, &y| {
         let (p, q) = (&checks[x], &checks[y]);
         p.relatedness
-            .value
-            .total_cmp(&q.relatedness.value)
-            .then(p.relatedness.best_score.cmp(&q.relatedness.best_score))
+            .best_score
+            .cmp(&q.relatedness.best_score)
+            .then((p.a.notes + p.b.notes).cmp(&(q.a.notes + q.b.notes)))
+            .then(p.relatedness.value.total_cmp(&q.relatedness.value))
             .then((q.a.rank + q.b.rank).cmp(&(p.a.rank + p.b.rank)))
             .then(q.a.rank.cmp(&p.a.rank))
     });

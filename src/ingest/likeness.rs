@@ -27,13 +27,13 @@ pub const FEATURE_NAMES: [&str; 13] = [
 ];
 
 /// Intercept of the logistic model (fitted; see the module comment).
-pub const INTERCEPT: f64 = -1.277696;
+pub const INTERCEPT: f64 = -3.278415;
 
 /// Weights of the logistic model, in the order of [`FEATURE_NAMES`] (fitted; see the module
 /// comment).
 pub const WEIGHTS: [f64; 13] = [
-    1.912332, -0.416848, -0.797278, -0.029782, -0.813143, -0.469427, 3.209851, 5.156198,
-    0.169545, -0.677856, 0.757238, -0.532076, -0.528267,
+    1.767339, 0.715233, -0.013834, 0.684893, 0.094306, -0.469058, 2.726035, 7.179504, 0.275862,
+    -0.148674, 0.904212, -0.624496, -0.730011,
 ];
 
 /// Two lines whose melody-likeness differs by less than this are "close": the reports say
@@ -67,7 +67,11 @@ pub fn log_odds(f: &LineFeatures) -> f64 {
 /// The linear predictor of a feature vector in the order of [`FEATURE_NAMES`] (missing
 /// values count as 0).
 pub fn log_odds_of(x: &[f64]) -> f64 {
-    INTERCEPT + x.iter().zip(WEIGHTS.iter()).map(|(a, w)| a * w).sum::<f64>()
+    INTERCEPT
+        + x.iter()
+            .zip(WEIGHTS.iter())
+            .map(|(a, w)| a * w)
+            .sum::<f64>()
 }
 
 /// Melody-likeness in [0, 1]: the logistic function of [`log_odds`].

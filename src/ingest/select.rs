@@ -91,14 +91,47 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
         )));
     }
     let span = sounding_span(&piece, choice.include_percussion);
+    let tops: Vec<Vec<Note>> = lines
+        .iter()
+        .map(|line| {
+            let notes: Vec<&Note> = line
+                .notes
+                .iter()
+                .map(|&k| &piece.parts[line.part].notes[k])
+                .collect();
+            skyline(&notes, &piece.tempo)
+        })
+        .collect();
+    // A line whose every note sounds in another line at the same onset and pitch class (a
+    // piano part and its upper staff; an instrument doubling the voice for a few bars, in
+    // unison or octaves) adds nothing to compare: the longer line (of equal ones, the first)
+    // stands for both.
+    let doubling: Vec<bool> = (0..lines.len())
+        .map(|i| {
+            (0..lines.len()).any(|j| {
+                j != i
+                    && (tops[j].len() > tops[i].len() || (tops[j].len() == tops[i].len() && j < i))
+                    && doubles(&tops[i], &tops[j])
+            })
+        })
+        .collect();
     let mut features = Vec::with_capacity(lines.len());
-    let mut melodies = Vec::with_capacity(lines.len());
-    for line in &lines {
-        let notes: Vec<&Note> = line.notes.iter().map(|&k| &piece.parts[line.part].notes[k]).collect();
-        let melody = skyline(&notes, &piece.tempo);
-        features.push(likeness::line_features(&notes, &melody, span));
-        melodies.push((melody, has_simultaneous_onsets(&notes)));
+    let mut melodies: Vec<(Vec<Note>, bool)> = Vec::with_capacity(lines.len());
+    let mut kept = Vec::with_capacity(lines.len());
+    for ((line, top), doubled) in lines.into_iter().zip(tops).zip(doubling) {
+        if doubled {
+            continue;
+        }
+        let notes: Vec<&Note> = line
+            .notes
+            .iter()
+            .map(|&k| &piece.parts[line.part].notes[k])
+            .collect();
+        features.push(likeness::line_features(&notes, &top, span));
+        melodies.push((top, has_simultaneous_onsets(&notes)));
+        kept.push(line);
     }
+    let lines = kept;
     likeness::relate(&mut features);
     let mut order: Vec<usize> = (0..lines.len()).collect();
     let scores: Vec<f64> = features.iter().map(likeness::likeness).collect();
@@ -113,7 +146,11 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
         let part = &piece.parts[line.part];
         let (melody, had_chords) = std::mem::take(&mut melodies[k]);
         let why = if total == 1 {
-            if asked_part || explicit { "as asked".to_string() } else { "the only pitched line".to_string() }
+            if asked_part || explicit {
+                "as asked".to_string()
+            } else {
+                "the only pitched line".to_string()
+            }
         } else if rank == 0 {
             format!(
                 "most melody-like of {total} candidate lines: likeness {:.2}, {:.0}% single-note onsets, mean pitch {}",
@@ -122,7 +159,11 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
                 pitch_name(60.0 + 12.0 * features[k].pitch_mean)
             )
         } else {
-            format!("candidate {} of {total}: likeness {:.2}", rank + 1, scores[k])
+            format!(
+                "candidate {} of {total}: likeness {:.2}",
+                rank + 1,
+                scores[k]
+            )
         };
         let mut reason = format!("part {} ({why})", describe_part(part));
         if let Some(s) = line.staff {
@@ -203,7 +244,12 @@ fn candidate_lines(
             if notes.is_empty() || lines.iter().any(|l| l.part == p && l.notes == notes) {
                 return;
             }
-            lines.push(Line { part: p, staff, voice, notes });
+            lines.push(Line {
+                part: p,
+                staff,
+                voice,
+                notes,
+            });
         };
         push(choice.staff, choice.voice.clone());
         if explicit {
@@ -217,7 +263,11 @@ fn candidate_lines(
                 push(Some(s), None);
             }
         }
-        let mut voices: Vec<&str> = part.notes.iter().filter_map(|n| n.voice.as_deref()).collect();
+        let mut voices: Vec<&str> = part
+            .notes
+            .iter()
+            .filter_map(|n| n.voice.as_deref())
+            .collect();
         voices.sort_unstable();
         voices.dedup();
         if voices.len() > 1 {
@@ -227,6 +277,23 @@ fn candidate_lines(
         }
     }
     lines
+}
+
+/// Whether every note of line `x` sounds in line `y` at the same onset and pitch class (both in
+/// time order).
+fn doubles(x: &[Note], y: &[Note]) -> bool {
+    if x.is_empty() {
+        return true;
+    }
+    let mut k = 0;
+    x.iter().all(|n| {
+        while k < y.len() && y[k].onset_ticks < n.onset_ticks {
+            k += 1;
+        }
+        k < y.len()
+            && y[k].onset_ticks == n.onset_ticks
+            && (y[k].pitch.0.round() as i64 - n.pitch.0.round() as i64).rem_euclid(12) == 0
+    })
 }
 
 /// First onset to last end, in quarter notes, over the pitched parts that may be chosen.

@@ -75,24 +75,7 @@ pub struct CompareRecord {
 
 /// The label of the line compared (the candidate whose selection it is), or the part.
 pub fn line_compared(piece: &Piece) -> String {
-    let s = &piece.selection;
-    piece
-        .candidates
-        .iter()
-        .find(|c| {
-            c.selection.part == s.part && c.selection.staff == s.staff && c.selection.voice == s.voice
-        })
-        .map(|c| c.label.clone())
-        .or_else(|| {
-            piece.parts.get(s.part).map(|p| {
-                if p.name.is_empty() {
-                    p.id.clone()
-                } else {
-                    format!("{} \"{}\"", p.id, p.name)
-                }
-            })
-        })
-        .unwrap_or_default()
+    crate::compare::pairing::line_label(piece)
 }
 
 fn work(tag: &str, piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {

@@ -566,7 +566,10 @@ pub fn render_text(piece: &Piece) -> String {
         line(
             &mut out,
             "",
-            &format!("other candidate lines (melody-likeness): {}", others.join("; ")),
+            &format!(
+                "other candidate lines (melody-likeness): {}",
+                others.join("; ")
+            ),
         );
     }
     line(&mut out, "", &format!("{} notes", r.notes.len()));

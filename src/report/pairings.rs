@@ -54,7 +54,11 @@ pub fn sentences(pairings: &[PairingCheck]) -> Vec<String> {
                 line(&p.a),
                 line(&p.b),
                 figures(p),
-                if p.chosen { " (the pairing reported)" } else { "" }
+                if p.chosen {
+                    " (the pairing reported)"
+                } else {
+                    ""
+                }
             )
         })
         .collect()
