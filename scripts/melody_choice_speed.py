@@ -3,8 +3,8 @@
 lines (the default) against 1 × 1 (issue 17's target: under 1 s).
 
 Builds, under target/melody-choice-speed/ (nothing is committed), score_a.mid and score_b.mid:
-larkfield.mid and glimmerfen.mid of tests/fixtures/arrangements (melody, countermelody, chords,
-bass, drums) repeated with mido until each lasts about 180 s. Then runs, best of --runs, with
+larkfield.mid and glimmerfen.mid of tests/fixtures/arrangements (multi-part arrangements)
+repeated with mido until each lasts about 180 s. Then runs, best of --runs, with
 /usr/bin/time (wall, user CPU, peak RSS):
   collatio compare score_a.mid score_b.mid --format json [--melody-candidates 1]
 on all cores and with RAYON_NUM_THREADS=1 (one core).

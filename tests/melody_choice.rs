@@ -204,3 +204,42 @@ fn explicit_selection_wins() {
     );
     assert!(share_found(&f) < 0.5);
 }
+
+/// `search` looks for each of the query's best lines: the arranged tune (neutral names, a line
+/// above it) finds its plain tune first, through the tune's line (Ryan's Mammoth Collection,
+/// 1883).
+#[test]
+fn search_finds_the_tune_through_its_line() {
+    use collatio::corpus::{CorpusIndex, IndexSource, MelodyEntry};
+    use collatio::pipeline::{search, CorpusRef, SearchSettings};
+    let entries: Vec<MelodyEntry> = (1..=3)
+        .map(|k| {
+            let name = format!("tune{k}-plain.mid");
+            let piece = read_file(&fixture(&name), &ReadOptions::default()).unwrap();
+            MelodyEntry::from_piece(&piece, name)
+        })
+        .collect();
+    let index = CorpusIndex::build(entries);
+    let source = IndexSource::new("plain tunes", &[], &index);
+    let query = read_file(&fixture("tune2-neutral.mid"), &ReadOptions::default()).unwrap();
+    let settings = SearchSettings {
+        chance: ChanceParams {
+            null: NullChoice::Off,
+            ..Default::default()
+        },
+        ..Default::default()
+    };
+    let found = search(
+        query,
+        CorpusRef {
+            index: &index,
+            source: &source,
+        },
+        &settings,
+    );
+    assert!(found.query_lines.len() > 1);
+    let first = &found.hits[0];
+    assert_eq!(first.path, "tune2-plain.mid");
+    assert!(first.query_line.contains("Part 2"), "{}", first.query_line);
+    assert!(first.relatedness.value > 0.9);
+}

@@ -183,9 +183,12 @@ pub fn choose_pairing(
                 checks.len()
             )
         });
-        for (piece, line) in [(&mut *a, &lines_a[i]), (&mut *b, &lines_b[j])] {
+        for (piece, lines, line) in [
+            (&mut *a, lines_a.len(), &lines_a[i]),
+            (&mut *b, lines_b.len(), &lines_b[j]),
+        ] {
             piece.selection = line.selection.clone();
-            if let Some(note) = &note {
+            if let Some(note) = note.as_ref().filter(|_| lines > 1) {
                 piece.selection.reason.push_str(note);
             }
             piece.melody = line.melody.clone();

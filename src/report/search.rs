@@ -64,7 +64,9 @@ pub fn render_text(found: &SearchFindings) -> String {
         }
     ));
     if found.hits.is_empty() {
-        out.push_str("No melody of the corpus shares a passage with the query lines searched for.\n");
+        out.push_str(
+            "No melody of the corpus shares a passage with the query lines searched for.\n",
+        );
         out.push_str(&format!("{}\n", absence_caution(found.corpus.melodies)));
         out.push_str(&short_text());
         return out;
