@@ -8,6 +8,8 @@
 //! `make_melody_choice_fixtures.py` there from tunes of "Ryan's Mammoth Collection" (1883),
 //! which are not in the development set.
 
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
 use collatio::findings::{CompareSettings, Findings};
 use collatio::ingest::likeness::{log_odds_of, FEATURE_NAMES, INTERCEPT, WEIGHTS};
 use collatio::ingest::{read_file, MelodyChoice, ReadOptions};

@@ -117,7 +117,8 @@ fn paired_line(piece: &Piece, rank: usize, line: &MelodyCandidate) -> PairedLine
 
 /// Pairs the first `limit` candidate lines of each work, scans every pairing, and leaves in
 /// `a` and `b` the lines of the pairing with the highest best score (ties: the more notes in
-/// the two lines, the higher relatedness, then the more melody-like lines, A's first). Returns every pairing checked, in the
+/// the two lines, the higher relatedness, then the more melody-like lines, A's first); when no
+/// pairing reaches the reporting threshold, the most melody-like line of each. Returns every pairing checked, in the
 /// order A's rank, then B's rank.
 pub fn choose_pairing(
     a: &mut Piece,
@@ -164,7 +165,9 @@ pub fn choose_pairing(
             chosen: false,
         })
         .collect();
-    let best = (0..checks.len()).max_by(|&x, &y| {
+    // With nothing shared anywhere, the most melody-like lines stand for the work.
+    let anything = checks.iter().any(|c| c.shares_passage);
+    let best = (0..checks.len()).filter(|_| anything).max_by(|&x, &y| {
         let (p, q) = (&checks[x], &checks[y]);
         p.relatedness
             .best_score
@@ -174,6 +177,7 @@ pub fn choose_pairing(
             .then((q.a.rank + q.b.rank).cmp(&(p.a.rank + p.b.rank)))
             .then(q.a.rank.cmp(&p.a.rank))
     });
+    let best = best.or((!checks.is_empty()).then_some(0));
     if let Some(k) = best {
         checks[k].chosen = true;
         let (i, j) = pairs[k];

@@ -90,8 +90,10 @@ pub fn render(findings: &Findings) -> String {
             pairings.len(),
             pairings.len()
         ));
-        out.push_str(" also checked:\n");
-        out.push_str(&listing(pairings, true));
+        if !findings.passages.is_empty() {
+            out.push_str(" also checked:\n");
+            out.push_str(&listing(pairings, true));
+        }
     }
     if !rest_a.is_empty() || !rest_b.is_empty() {
         out.push_str(&format!(
