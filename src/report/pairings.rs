@@ -83,17 +83,21 @@ pub fn render(findings: &Findings) -> String {
     let checked_b = pairings.iter().map(|p| p.b.rank).max().unwrap_or(1);
     let rest_a = unchecked(&findings.a, checked_a);
     let rest_b = unchecked(&findings.b, checked_b);
-    if pairings.len() > 1 {
+    if pairings.len() > 1 && findings.passages.is_empty() {
+        out.push_str(&format!(
+            "\nLines compared: {} pairings of candidate melody lines (--melody-candidates); \
+             none shares a passage, so the most melody-like line of each work is reported.\n",
+            pairings.len()
+        ));
+    } else if pairings.len() > 1 {
         out.push_str(&format!(
             "\nLines compared: the strongest of {} pairings of candidate melody lines \
              (--melody-candidates); its E-values are multiplied by {} for the choice.\n",
             pairings.len(),
             pairings.len()
         ));
-        if !findings.passages.is_empty() {
-            out.push_str(" also checked:\n");
-            out.push_str(&listing(pairings, true));
-        }
+        out.push_str(" also checked:\n");
+        out.push_str(&listing(pairings, true));
     }
     if !rest_a.is_empty() || !rest_b.is_empty() {
         out.push_str(&format!(
