@@ -12,6 +12,7 @@ use crate::align::sync::SyncParams;
 use crate::align::AlignParams;
 use crate::compare::differences::Difference;
 use crate::compare::harmony::HarmonicEvidence;
+use crate::compare::pairing::PairingCheck;
 use crate::compare::sync::SyncSummary;
 use crate::compare::{Passage, Relatedness};
 use crate::corpus::{Commonness, CorpusSummary};
@@ -73,6 +74,10 @@ pub struct CompareSettings {
     /// Score following of a recording against a score; `None` keeps a recording's own
     /// (estimated) bars.
     pub sync: Option<SyncParams>,
+    /// Candidate melody lines of each work paired and scanned (see
+    /// [`crate::compare::pairing`]); the strongest pairing is compared. Default 3; 1 compares
+    /// only the most melody-like line of each.
+    pub melody_candidates: usize,
 }
 
 impl Default for CompareSettings {
@@ -82,6 +87,7 @@ impl Default for CompareSettings {
             chance: ChanceParams::default(),
             harmony: Some(HarmonyParams::default()),
             sync: Some(SyncParams::default()),
+            melody_candidates: crate::compare::pairing::DEFAULT_CANDIDATES,
         }
     }
 }
@@ -118,6 +124,8 @@ pub struct Findings {
     pub harmony: Option<HarmonicEvidence>,
     /// How a recording follows a score, when one side is each.
     pub synchronisation: Option<SyncSummary>,
+    /// Every pairing of candidate lines checked, the one compared marked `chosen`.
+    pub pairings: Vec<PairingCheck>,
     /// Note pairs (A, B) from which a short interval figure recurs in the other melody (see
     /// [`crate::compare::recurrence`]), the dot plot's background.
     pub recurrences: Vec<[usize; 2]>,
@@ -126,6 +134,8 @@ pub struct Findings {
 /// One melody of a corpus that shares passages with a query.
 #[derive(Debug, Clone, Serialize)]
 pub struct Hit {
+    /// The query line that found it: part, staff and voice in words.
+    pub query_line: String,
     /// Path of the melody inside the corpus.
     pub path: String,
     /// Title, when the file had one.
@@ -147,8 +157,10 @@ pub struct SearchFindings {
     pub corpus: crate::corpus::IndexSource,
     /// Alignment settings used.
     pub align: AlignParams,
-    /// What the hits' chance figures rest on, when computed.
+    /// What the hits' chance figures rest on, when computed (for the most melody-like line).
     pub chance: Option<ChanceSummary>,
+    /// The query lines searched for, most melody-like first.
+    pub query_lines: Vec<String>,
     /// Best first.
     pub hits: Vec<Hit>,
 }

@@ -27,6 +27,7 @@ use crate::align::AlignParams;
 use crate::align::{best_score, self_score};
 use crate::compare::differences::differences;
 use crate::compare::harmony::harmonic_evidence;
+use crate::compare::pairing::choose_pairing;
 use crate::compare::recurrence::interval_recurrences;
 use crate::compare::sync::{follow_score, SyncSummary};
 use crate::compare::{compare, Relatedness, Side};
@@ -59,6 +60,9 @@ pub struct SearchSettings {
     /// The chance figures of the hits: the query against a sample of the corpus (the corpus
     /// null); `null` other than automatic or off is not used in a search. Default automatic.
     pub chance: ChanceParams,
+    /// Candidate melody lines of the query searched for (see [`crate::compare::pairing`]);
+    /// each corpus melody keeps its strongest hit. Default 3.
+    pub melody_candidates: usize,
 }
 
 impl Default for SearchSettings {
@@ -68,6 +72,7 @@ impl Default for SearchSettings {
             candidates: 100,
             top: 10,
             chance: ChanceParams::default(),
+            melody_candidates: crate::compare::pairing::DEFAULT_CANDIDATES,
         }
     }
 }
@@ -117,6 +122,11 @@ pub fn compare_works(
     settings: &CompareSettings,
     corpus: Option<CorpusRef<'_>>,
 ) -> Findings {
+    let (mut a, mut b) = (a, b);
+    let pairings = choose_pairing(&mut a, &mut b, settings.melody_candidates, &settings.align);
+    // The strongest of several pairings is reported: its chance figures are multiplied by the
+    // number of pairings checked (Bonferroni), so that the choice does not flatter them.
+    let tested = pairings.len().max(1) as f64;
     let (a, b, synchronisation) = follow(a, b, settings.sync.as_ref());
     let comparison = compare(&a, &b, &settings.align);
     let (seq_a, seq_b) = (Sequence::from_piece(&a), Sequence::from_piece(&b));
@@ -167,7 +177,10 @@ pub fn compare_works(
                 evidence.push(Evidence::Harmony);
             }
             Finding {
-                significance: chance.as_ref().and_then(|m| m.significance(passage.score)),
+                significance: chance
+                    .as_ref()
+                    .and_then(|m| m.significance(passage.score))
+                    .map(|s| s.for_tests(tested)),
                 commonness,
                 evidence,
                 differences: differences(&a, &b, &passage),
@@ -187,6 +200,7 @@ pub fn compare_works(
         corpus: corpus_summary,
         harmony,
         synchronisation,
+        pairings,
         recurrences: interval_recurrences(&seq_a, &seq_b),
         settings: settings.clone(),
         a,
@@ -196,8 +210,68 @@ pub fn compare_works(
 
 /// Searches a corpus for a query's melody: candidates retrieved by shared figures, each
 /// aligned in full as a comparison would, ranked by relatedness (ties: the stronger top
-/// passage, then the path); melodies sharing no passage are left out.
+/// passage, then the path); melodies sharing no passage are left out. When the query has
+/// several candidate melody lines, the first `melody_candidates` are searched for in turn and
+/// each corpus melody keeps its strongest hit (the higher relatedness, then the higher top
+/// score, then the more melody-like line), its chance figures multiplied by the number of
+/// lines searched (Bonferroni); every hit names the query line it came from.
 pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -> SearchFindings {
+    let lines: Vec<_> = query
+        .candidates
+        .iter()
+        .take(settings.melody_candidates.max(1))
+        .cloned()
+        .collect();
+    if lines.len() <= 1 {
+        return search_line(query, corpus, settings);
+    }
+    let tests = lines.len() as f64;
+    let mut first: Option<SearchFindings> = None;
+    let mut best: std::collections::BTreeMap<String, Hit> = std::collections::BTreeMap::new();
+    for line in &lines {
+        let mut q = query.clone();
+        q.melody.clone_from(&line.melody);
+        q.selection = line.selection.clone();
+        let found = search_line(q, corpus, settings);
+        for mut hit in found.hits.iter().cloned() {
+            for p in &mut hit.passages {
+                p.significance = p.significance.take().map(|s| s.for_tests(tests));
+            }
+            let stronger = |old: &Hit| {
+                hit.relatedness
+                    .value
+                    .total_cmp(&old.relatedness.value)
+                    .then(hit.relatedness.best_score.cmp(&old.relatedness.best_score))
+                    .is_gt()
+            };
+            match best.get(&hit.path) {
+                Some(old) if !stronger(old) => {}
+                _ => {
+                    best.insert(hit.path.clone(), hit);
+                }
+            }
+        }
+        first.get_or_insert(found);
+    }
+    let mut hits: Vec<Hit> = best.into_values().collect();
+    hits.sort_by(|x, y| {
+        y.relatedness
+            .value
+            .total_cmp(&x.relatedness.value)
+            .then_with(|| y.relatedness.best_score.cmp(&x.relatedness.best_score))
+            .then_with(|| x.path.cmp(&y.path))
+    });
+    hits.truncate(settings.top);
+    let mut found = first.unwrap_or_else(|| search_line(query.clone(), corpus, settings));
+    found.query = query;
+    found.hits = hits;
+    found.query_lines = lines.iter().map(|l| l.label.clone()).collect();
+    found
+}
+
+/// [`search`] for the query's melody as it stands.
+fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -> SearchFindings {
+    let line = crate::compare::pairing::line_label(&query);
     let seq = Sequence::from_piece(&query);
     let references = reference_melodies(
         corpus.index,
@@ -255,6 +329,7 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
                 let piece = entry.to_piece();
                 let result = compare(&query, &piece, &settings.align);
                 (!result.passages.is_empty()).then(|| Hit {
+                    query_line: line.clone(),
                     path: entry.path.clone(),
                     title: entry.title.clone(),
                     relatedness: result.relatedness,
@@ -284,6 +359,7 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
         corpus: corpus.source.clone(),
         align: settings.align.clone(),
         chance: chance.map(|c| c.summary),
+        query_lines: vec![line],
         hits,
     }
 }

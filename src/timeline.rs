@@ -443,6 +443,58 @@ impl Selection {
     }
 }
 
+/// Statistics of one candidate melody line, after the track descriptors of Rizo et al.
+/// (2006), "A pattern recognition approach for melody track selection in MIDI files"
+/// (ISMIR): each a share, or a size scaled to about one. Computed by the reader's melody
+/// choice; the weights that turn them into a melody-likeness are documented there.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
+pub struct LineFeatures {
+    /// Share of the line's onsets at which a single note starts (1 − polyphony rate).
+    pub single_onsets: f64,
+    /// Share of the piece's sounding span during which the line sounds (1 − silence share).
+    pub occupation: f64,
+    /// ln(1 + onsets per quarter note of the piece's span), of the top-voice line.
+    pub density: f64,
+    /// Onset density over the densest candidate line's, in [0, 1].
+    pub density_relative: f64,
+    /// Entropy of the inter-onset intervals (quantised to 1/12 quarter), in bits over 3,
+    /// at most 1: rhythmic variety.
+    pub rhythm_variety: f64,
+    /// Pitch range of the top-voice line in semitones over 24, at most 2.
+    pub range: f64,
+    /// Mean pitch of the top-voice line, (MIDI − 60) / 12.
+    pub pitch_mean: f64,
+    /// Mean pitch less the highest mean pitch of the candidate lines, in octaves (≤ 0).
+    pub pitch_mean_relative: f64,
+    /// Standard deviation of the pitches, in octaves.
+    pub pitch_spread: f64,
+    /// Mean absolute interval between successive notes, in octaves.
+    pub interval_mean: f64,
+    /// Share of intervals of one or two semitones (steps).
+    pub steps: f64,
+    /// Share of repeated pitches (unisons).
+    pub repeats: f64,
+    /// Share of intervals larger than a fifth.
+    pub leaps: f64,
+}
+
+/// One line of a piece that could be its melody: a part, or one staff or voice of it, reduced
+/// to its top voice, with its melody-likeness.
+#[derive(Debug, Clone, Serialize)]
+pub struct MelodyCandidate {
+    /// What the line is and why it was considered.
+    pub selection: Selection,
+    /// Short name of the line: part id and name, staff, voice.
+    pub label: String,
+    /// Melody-likeness in [0, 1] (a logistic model of [`LineFeatures`]).
+    pub likeness: f64,
+    /// The statistics it rests on.
+    pub features: LineFeatures,
+    /// The line, one note at a time.
+    #[serde(skip)]
+    pub melody: Vec<Note>,
+}
+
 /// A piece of music in the common timeline.
 #[derive(Debug, Clone, Serialize)]
 pub struct Piece {
@@ -474,6 +526,10 @@ pub struct Piece {
     pub melody: Vec<Note>,
     /// What was selected and why.
     pub selection: Selection,
+    /// The candidate lines considered, most melody-like first; the first is [`Piece::melody`]
+    /// unless a comparison chose another pairing. One entry when the selection was explicit;
+    /// empty for recordings and corpus melodies.
+    pub candidates: Vec<MelodyCandidate>,
     /// Warnings met while reading, each naming where.
     pub warnings: Vec<String>,
     /// Time spans in seconds where a recording's melody extractor was unsure (empty for

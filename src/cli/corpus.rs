@@ -127,6 +127,7 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
     };
     let query = read_file(&args.query, &options)?;
     let settings = SearchSettings {
+        melody_candidates: usize::from(args.melody_candidates),
         align: args.alignment.params(),
         candidates: args.candidates,
         top: args.top,

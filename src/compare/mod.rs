@@ -29,6 +29,7 @@
 
 pub mod differences;
 pub mod harmony;
+pub mod pairing;
 pub mod recurrence;
 pub mod sync;
 

@@ -187,6 +187,7 @@ impl MelodyEntry {
             repeats_unfolded: false,
             melody,
             selection: Selection::whole_part(0, format!("melody {} of the corpus", self.part)),
+            candidates: Vec::new(),
             warnings: Vec::new(),
             chroma: None,
             transcription: None,

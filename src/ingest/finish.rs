@@ -102,6 +102,7 @@ pub(crate) fn finish(
         repeats_unfolded,
         melody: Vec::new(),
         selection: Selection::whole_part(0, String::new()),
+        candidates: Vec::new(),
         warnings: raw.warnings,
         chroma: raw.chroma,
         transcription: raw.transcription,

@@ -16,6 +16,7 @@ pub mod audio;
 pub mod detect;
 mod error;
 mod finish;
+pub mod likeness;
 pub mod midi;
 pub mod musicxml;
 mod select;

@@ -1,9 +1,10 @@
 //! Choosing the melody: a part (or track and channel), optionally a staff, voice and bar
-//! range; chords reduced to their highest note.
+//! range; chords reduced to their highest note. Without a choice, every candidate line is
+//! ranked by melody-likeness ([`super::likeness`]).
 
-use super::Problem;
+use super::{likeness, Problem};
 use crate::theory::pitch_name;
-use crate::timeline::{Note, Part, Piece};
+use crate::timeline::{MelodyCandidate, Note, Part, Piece, Selection};
 
 /// A range of bars by their printed labels, inclusive: `9-24`, `12a-16`, or one bar `7`.
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
@@ -55,13 +56,10 @@ pub struct MelodyChoice {
     pub include_percussion: bool,
 }
 
-/// Words in a part or instrument name that suggest the melody line.
-const MELODY_WORDS: [&str; 12] = [
-    "melod", "vocal", "voice", "voc", "lead", "solo", "soprano", "sing", "tune", "canto", "chant",
-    "lyric",
-];
-
-/// Fills [`Piece::melody`] and [`Piece::selection`].
+/// Fills [`Piece::melody`], [`Piece::selection`] and [`Piece::candidates`]: every candidate
+/// line (each pitched part, and each staff and voice of a part that has several), reduced to
+/// its top voice and ranked by melody-likeness ([`super::likeness`]); the most melody-like is
+/// the melody. An explicit part, track, channel, staff or voice keeps only the line asked for.
 pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<Piece, Problem> {
     if piece.parts.iter().all(|p| p.notes.is_empty()) {
         if piece.parts.iter().any(|p| p.percussion) {
@@ -76,75 +74,257 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
             "the file contains no pitched notes (only rests or nothing)".into(),
         ));
     }
-    let candidates = candidate_parts(&piece, choice)?;
-    let asked = choice.part.is_some() || choice.track.is_some() || choice.channel.is_some();
-    let (part_index, why) = if candidates.len() == 1 {
-        let why = if asked {
-            "as asked"
-        } else {
-            "the only pitched part"
-        };
-        (candidates[0], why.to_string())
-    } else {
-        most_melodic(&piece, &candidates)
-    };
-    let part = &piece.parts[part_index];
-
+    let parts = candidate_parts(&piece, choice)?;
+    let asked_part = choice.part.is_some() || choice.track.is_some() || choice.channel.is_some();
+    let explicit = asked_part || choice.staff.is_some() || choice.voice.is_some();
     let bar_span = match &choice.bars {
         Some(range) => Some(resolve_bars(&piece, range)?),
         None => None,
     };
-    let chosen: Vec<&Note> = part
-        .notes
-        .iter()
-        .filter(|n| choice.staff.is_none_or(|s| n.staff == s))
-        .filter(|n| {
-            choice
-                .voice
-                .as_ref()
-                .is_none_or(|v| n.voice.as_deref() == Some(v.as_str()))
-        })
-        .filter(|n| bar_span.is_none_or(|(a, b)| n.bar >= a && n.bar <= b))
-        .collect();
-    if chosen.is_empty() {
+    let lines = candidate_lines(&piece, &parts, choice, bar_span, explicit);
+    if lines.is_empty() {
+        let part = &piece.parts[parts[0]];
         return Err(Problem::Selection(format!(
             "part {} has no notes for the chosen staff, voice and bars{}",
             describe_part(part),
             available_voices(part)
         )));
     }
-    let had_chords = has_simultaneous_onsets(&chosen);
-    let melody = skyline(&chosen, &piece.tempo);
-
-    let mut reason = format!("part {} ({})", describe_part(part), why);
-    if let Some(s) = choice.staff {
-        reason.push_str(&format!(", staff {s}"));
+    let span = sounding_span(&piece, choice.include_percussion);
+    let tops: Vec<Vec<Note>> = lines
+        .iter()
+        .map(|line| {
+            let notes: Vec<&Note> = line
+                .notes
+                .iter()
+                .map(|&k| &piece.parts[line.part].notes[k])
+                .collect();
+            skyline(&notes, &piece.tempo)
+        })
+        .collect();
+    // A line whose every note sounds in another line at the same onset and pitch class (a
+    // piano part and its upper staff; an instrument doubling the voice for a few bars, in
+    // unison or octaves) adds nothing to compare: the longer line (of equal ones, the first)
+    // stands for both.
+    let doubling: Vec<bool> = (0..lines.len())
+        .map(|i| {
+            (0..lines.len()).any(|j| {
+                j != i
+                    && (tops[j].len() > tops[i].len() || (tops[j].len() == tops[i].len() && j < i))
+                    && doubles(&tops[i], &tops[j])
+            })
+        })
+        .collect();
+    let mut features = Vec::with_capacity(lines.len());
+    let mut melodies: Vec<(Vec<Note>, bool)> = Vec::with_capacity(lines.len());
+    let mut kept = Vec::with_capacity(lines.len());
+    for ((line, top), doubled) in lines.into_iter().zip(tops).zip(doubling) {
+        if doubled {
+            continue;
+        }
+        let notes: Vec<&Note> = line
+            .notes
+            .iter()
+            .map(|&k| &piece.parts[line.part].notes[k])
+            .collect();
+        features.push(likeness::line_features(&notes, &top, span));
+        melodies.push((top, has_simultaneous_onsets(&notes)));
+        kept.push(line);
     }
-    if let Some(v) = &choice.voice {
-        reason.push_str(&format!(", voice {v}"));
+    let lines = kept;
+    likeness::relate(&mut features);
+    let mut order: Vec<usize> = (0..lines.len()).collect();
+    let scores: Vec<f64> = features.iter().map(likeness::likeness).collect();
+    order.sort_by(|&x, &y| scores[y].total_cmp(&scores[x]).then(x.cmp(&y)));
+    if explicit {
+        order.truncate(1);
     }
-    if let Some(range) = &choice.bars {
-        reason.push_str(&format!(", bars {}–{}", range.first, range.last));
+    let total = lines.len();
+    let mut candidates: Vec<MelodyCandidate> = Vec::with_capacity(order.len());
+    for (rank, &k) in order.iter().enumerate() {
+        let line = &lines[k];
+        let part = &piece.parts[line.part];
+        let (melody, had_chords) = std::mem::take(&mut melodies[k]);
+        let why = if total == 1 {
+            if asked_part || explicit {
+                "as asked".to_string()
+            } else {
+                "the only pitched line".to_string()
+            }
+        } else if rank == 0 {
+            format!(
+                "most melody-like of {total} candidate lines: likeness {:.2}, {:.0}% single-note onsets, mean pitch {}",
+                scores[k],
+                100.0 * features[k].single_onsets,
+                pitch_name(60.0 + 12.0 * features[k].pitch_mean)
+            )
+        } else {
+            format!(
+                "candidate {} of {total}: likeness {:.2}",
+                rank + 1,
+                scores[k]
+            )
+        };
+        let mut reason = format!("part {} ({why})", describe_part(part));
+        if let Some(s) = line.staff {
+            reason.push_str(&format!(", staff {s}"));
+        }
+        if let Some(v) = &line.voice {
+            reason.push_str(&format!(", voice {v}"));
+        }
+        if let Some(range) = &choice.bars {
+            reason.push_str(&format!(", bars {}–{}", range.first, range.last));
+        }
+        if had_chords {
+            reason.push_str(
+                "; chords reduced to their highest note, and notes starting under a held higher \
+                 note left out (skyline)",
+            );
+        }
+        candidates.push(MelodyCandidate {
+            selection: Selection {
+                part: line.part,
+                staff: line.staff,
+                voice: line.voice.clone(),
+                bars: choice
+                    .bars
+                    .as_ref()
+                    .map(|r| (r.first.clone(), r.last.clone())),
+                skyline: had_chords,
+                reason,
+            },
+            label: line_label(part, line.staff, line.voice.as_deref()),
+            likeness: scores[k],
+            features: features[k],
+            melody,
+        });
     }
-    if had_chords {
-        reason.push_str(
-            "; chords reduced to their highest note, and notes starting under a held higher \
-             note left out (skyline)",
-        );
+    if let Some(best) = candidates.first() {
+        piece.selection = best.selection.clone();
+        piece.melody = best.melody.clone();
     }
-    piece.selection = crate::timeline::Selection {
-        part: part_index,
-        staff: choice.staff,
-        voice: choice.voice.clone(),
-        bars: choice
-            .bars
-            .as_ref()
-            .map(|r| (r.first.clone(), r.last.clone())),
-        skyline: had_chords,
-        reason,
-    };
-    piece.melody = melody;
+    piece.candidates = candidates;
     Ok(piece)
+}
+
+/// A line that may be the melody: notes of one part, optionally of one staff or voice.
+struct Line {
+    part: usize,
+    staff: Option<u8>,
+    voice: Option<String>,
+    /// Indices into the part's notes, in time order.
+    notes: Vec<usize>,
+}
+
+/// Every candidate line of the allowed parts: the whole part, then (unless the choice names a
+/// staff or voice, or a part explicitly) each of its staves and voices when it has several;
+/// lines with no notes, or the same notes as an earlier line, are left out.
+fn candidate_lines(
+    piece: &Piece,
+    parts: &[usize],
+    choice: &MelodyChoice,
+    bar_span: Option<(usize, usize)>,
+    explicit: bool,
+) -> Vec<Line> {
+    let mut lines: Vec<Line> = Vec::new();
+    for &p in parts {
+        let part = &piece.parts[p];
+        let pick = |staff: Option<u8>, voice: Option<&str>| -> Vec<usize> {
+            part.notes
+                .iter()
+                .enumerate()
+                .filter(|(_, n)| staff.is_none_or(|s| n.staff == s))
+                .filter(|(_, n)| voice.is_none_or(|v| n.voice.as_deref() == Some(v)))
+                .filter(|(_, n)| bar_span.is_none_or(|(a, b)| n.bar >= a && n.bar <= b))
+                .map(|(k, _)| k)
+                .collect()
+        };
+        let mut push = |staff: Option<u8>, voice: Option<String>| {
+            let notes = pick(staff, voice.as_deref());
+            if notes.is_empty() || lines.iter().any(|l| l.part == p && l.notes == notes) {
+                return;
+            }
+            lines.push(Line {
+                part: p,
+                staff,
+                voice,
+                notes,
+            });
+        };
+        push(choice.staff, choice.voice.clone());
+        if explicit {
+            continue;
+        }
+        let mut staves: Vec<u8> = part.notes.iter().map(|n| n.staff).collect();
+        staves.sort_unstable();
+        staves.dedup();
+        if staves.len() > 1 {
+            for s in staves {
+                push(Some(s), None);
+            }
+        }
+        let mut voices: Vec<&str> = part
+            .notes
+            .iter()
+            .filter_map(|n| n.voice.as_deref())
+            .collect();
+        voices.sort_unstable();
+        voices.dedup();
+        if voices.len() > 1 {
+            for v in voices {
+                push(None, Some(v.to_string()));
+            }
+        }
+    }
+    lines
+}
+
+/// Whether every note of line `x` sounds in line `y` at the same onset and pitch class (both in
+/// time order).
+fn doubles(x: &[Note], y: &[Note]) -> bool {
+    if x.is_empty() {
+        return true;
+    }
+    let mut k = 0;
+    x.iter().all(|n| {
+        while k < y.len() && y[k].onset_ticks < n.onset_ticks {
+            k += 1;
+        }
+        k < y.len()
+            && y[k].onset_ticks == n.onset_ticks
+            && (y[k].pitch.0.round() as i64 - n.pitch.0.round() as i64).rem_euclid(12) == 0
+    })
+}
+
+/// First onset to last end, in quarter notes, over the pitched parts that may be chosen.
+fn sounding_span(piece: &Piece, include_percussion: bool) -> (f64, f64) {
+    let notes = piece
+        .parts
+        .iter()
+        .filter(|p| include_percussion || !p.percussion)
+        .flat_map(|p| p.notes.iter());
+    let (mut first, mut last) = (f64::MAX, f64::MIN);
+    for n in notes {
+        first = first.min(n.onset.0);
+        last = last.max(n.onset.0 + n.duration.0);
+    }
+    if first > last {
+        (0.0, 1.0)
+    } else {
+        (first, last)
+    }
+}
+
+/// `P2 "Piano", staff 1, voice 2`.
+fn line_label(part: &Part, staff: Option<u8>, voice: Option<&str>) -> String {
+    let mut label = describe_part(part);
+    if let Some(s) = staff {
+        label.push_str(&format!(", staff {s}"));
+    }
+    if let Some(v) = voice {
+        label.push_str(&format!(", voice {v}"));
+    }
+    label
 }
 
 fn describe_part(part: &Part) -> String {
@@ -223,85 +403,6 @@ fn candidate_parts(piece: &Piece, choice: &MelodyChoice) -> Result<Vec<usize>, P
         });
     }
     Ok(matching)
-}
-
-/// Picks the most melody-like part by a documented heuristic. Each part gets
-/// 0.35 · share of onsets that carry a single note (melodies are mostly monophonic)
-/// + 0.25 · mean pitch mapped from C2..C7 to 0..1 (melodies tend to lie high)
-/// + 0.20 if its name suggests a melody line ("melody", "vocal", "lead", "soprano", …)
-/// + 0.10 · share of the piece's duration it spans
-/// + 0.10 · its note count relative to the busiest part.
-fn most_melodic(piece: &Piece, candidates: &[usize]) -> (usize, String) {
-    let piece_span = piece
-        .parts
-        .iter()
-        .flat_map(|p| p.notes.iter())
-        .map(|n| n.end_ticks())
-        .max()
-        .unwrap_or(1)
-        .max(1) as f64;
-    let busiest = candidates
-        .iter()
-        .map(|&i| piece.parts[i].notes.len())
-        .max()
-        .unwrap_or(1)
-        .max(1) as f64;
-    let mut best: Option<(f64, usize, String)> = None;
-    for &i in candidates {
-        let part = &piece.parts[i];
-        let notes: Vec<&Note> = part.notes.iter().collect();
-        let monophony = single_onset_share(&notes);
-        let mean = notes.iter().map(|n| n.pitch.0).sum::<f64>() / notes.len().max(1) as f64;
-        let height = ((mean - 36.0) / 60.0).clamp(0.0, 1.0);
-        let text = format!("{} {}", part.name, part.instrument).to_lowercase();
-        let named = MELODY_WORDS.iter().any(|w| text.contains(w));
-        let first = notes.first().map_or(0, |n| n.onset_ticks);
-        let last = notes.iter().map(|n| n.end_ticks()).max().unwrap_or(0);
-        let coverage = ((last - first) as f64 / piece_span).clamp(0.0, 1.0);
-        let count = notes.len() as f64 / busiest;
-        let score = 0.35 * monophony
-            + 0.25 * height
-            + if named { 0.20 } else { 0.0 }
-            + 0.10 * coverage
-            + 0.10 * count;
-        let why = format!(
-            "most melody-like of {} pitched parts: {:.0}% single-note onsets, mean pitch {}{}",
-            candidates.len(),
-            100.0 * monophony,
-            pitch_name(mean),
-            if named {
-                ", named like a melody line"
-            } else {
-                ""
-            }
-        );
-        if best.as_ref().is_none_or(|(s, _, _)| score > *s + 1e-12) {
-            best = Some((score, i, why));
-        }
-    }
-    match best {
-        Some((_, i, why)) => (i, why),
-        None => (candidates[0], "the first pitched part".into()),
-    }
-}
-
-/// Share of distinct onsets at which exactly one note starts.
-fn single_onset_share(notes: &[&Note]) -> f64 {
-    let mut onsets = 0usize;
-    let mut single = 0usize;
-    let mut i = 0;
-    while i < notes.len() {
-        let mut j = i + 1;
-        while j < notes.len() && notes[j].onset_ticks == notes[i].onset_ticks {
-            j += 1;
-        }
-        onsets += 1;
-        if j - i == 1 {
-            single += 1;
-        }
-        i = j;
-    }
-    single as f64 / onsets.max(1) as f64
 }
 
 fn has_simultaneous_onsets(notes: &[&Note]) -> bool {

@@ -24,6 +24,10 @@ pub struct WorkRecord {
     pub title: Option<String>,
     /// Part id of the melody compared.
     pub part: String,
+    /// The line compared: part, staff and voice in words.
+    pub line: String,
+    /// Note when the two most melody-like lines of the work are close (`null` otherwise).
+    pub close_candidates: Option<String>,
     /// What was compared and why.
     pub selection: String,
     /// Notes in the melody compared.
@@ -64,11 +68,19 @@ pub struct CompareRecord {
     pub harmony: Option<crate::compare::harmony::HarmonicEvidence>,
     /// The alignment of a recording to a score (`null` unless one work is each).
     pub synchronisation: Option<crate::compare::sync::SyncSummary>,
+    /// Every pairing of candidate melody lines checked, with its figures; the one compared is
+    /// marked `chosen`. With more than one, the E-values are multiplied by their number.
+    pub pairings: Vec<crate::compare::pairing::PairingCheck>,
     /// The usual cautions, in short: what the record does not show.
     pub cautions: Vec<&'static str>,
 }
 
-fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
+/// The label of the line compared (the candidate whose selection it is), or the part.
+pub fn line_compared(piece: &Piece) -> String {
+    crate::compare::pairing::line_label(piece)
+}
+
+fn work(tag: &str, piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
     WorkRecord {
         source: piece.provenance.clone(),
         title: piece.title.clone(),
@@ -76,6 +88,8 @@ fn work(piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
             .parts
             .get(piece.selection.part)
             .map_or_else(String::new, |p| p.id.clone()),
+        line: line_compared(piece),
+        close_candidates: super::pairings::close_note(tag, piece),
         selection: piece.selection.reason.clone(),
         notes,
         unmatched_notes: unmatched,
@@ -93,8 +107,8 @@ pub fn record(findings: &Findings) -> CompareRecord {
             name: "collatio",
             version: env!("CARGO_PKG_VERSION"),
         },
-        a: work(a, result.notes_a, result.unmatched_a),
-        b: work(b, result.notes_b, result.unmatched_b),
+        a: work("A", a, result.notes_a, result.unmatched_a),
+        b: work("B", b, result.notes_b, result.unmatched_b),
         parameters: findings.settings.align.clone(),
         relatedness: result.relatedness,
         coverage: result.coverage,
@@ -103,6 +117,7 @@ pub fn record(findings: &Findings) -> CompareRecord {
         passages: result.passages.clone(),
         harmony: result.harmony.clone(),
         synchronisation: result.synchronisation.clone(),
+        pairings: result.pairings.clone(),
         cautions: super::cautions::SHORT.to_vec(),
     }
 }
@@ -153,8 +168,10 @@ pub fn render_text(findings: &Findings) -> String {
         ));
     }
     out.push_str(&render_synchronisation(result));
+    out.push_str(&super::pairings::render(result));
     if result.passages.is_empty() {
         out.push_str("\nNo shared melodic passage reaches the reporting threshold.\n");
+        out.push_str(&super::pairings::render_nothing_shared(result));
         out.push_str(&render_harmony(result));
         out.push_str(&short_text());
         return out;

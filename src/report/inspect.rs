@@ -29,6 +29,9 @@ pub struct InspectRecord {
     pub parts: Vec<PartSummary>,
     /// What was chosen as the melody and why.
     pub selection: SelectionRecord,
+    /// Every candidate line considered for the melody, most melody-like first, with its
+    /// melody-likeness and the statistics it rests on.
+    pub candidates: Vec<CandidateRecord>,
     /// Bars in timeline order.
     pub bars: Vec<BarRecord>,
     /// Tempo changes.
@@ -100,6 +103,25 @@ pub struct SelectionRecord {
     pub skyline: bool,
     /// Why.
     pub reason: String,
+}
+
+/// One candidate melody line.
+#[derive(Debug, Serialize)]
+pub struct CandidateRecord {
+    /// Part id.
+    pub part: String,
+    /// Staff, when the line is one staff of its part.
+    pub staff: Option<u8>,
+    /// Voice, when the line is one voice of its part.
+    pub voice: Option<String>,
+    /// Part, staff and voice in words.
+    pub label: String,
+    /// Notes of the top-voice line.
+    pub notes: usize,
+    /// Melody-likeness in [0, 1].
+    pub likeness: f64,
+    /// The statistics of the line (see `docs/melody-choice.md`).
+    pub features: crate::timeline::LineFeatures,
 }
 
 /// One bar.
@@ -291,6 +313,19 @@ pub fn record(piece: &Piece) -> InspectRecord {
             skyline: piece.selection.skyline,
             reason: piece.selection.reason.clone(),
         },
+        candidates: piece
+            .candidates
+            .iter()
+            .map(|c| CandidateRecord {
+                part: part_id(c.selection.part),
+                staff: c.selection.staff,
+                voice: c.selection.voice.clone(),
+                label: c.label.clone(),
+                notes: c.melody.len(),
+                likeness: c.likeness,
+                features: c.features,
+            })
+            .collect(),
         bars: piece
             .bars
             .iter()
@@ -521,6 +556,22 @@ pub fn render_text(piece: &Piece) -> String {
     }
     out.push('\n');
     line(&mut out, "melody", &r.selection.reason);
+    if r.candidates.len() > 1 {
+        let others: Vec<String> = r
+            .candidates
+            .iter()
+            .skip(1)
+            .map(|c| format!("{} {:.2}", c.label, c.likeness))
+            .collect();
+        line(
+            &mut out,
+            "",
+            &format!(
+                "other candidate lines (melody-likeness): {}",
+                others.join("; ")
+            ),
+        );
+    }
     line(&mut out, "", &format!("{} notes", r.notes.len()));
     out.push('\n');
     out.push_str(&format!(

@@ -20,6 +20,9 @@ pub struct SearchRecord<'a> {
     pub corpus: &'a crate::corpus::IndexSource,
     /// What the hits' chance figures rest on.
     pub chance: Option<&'a crate::stats::chance::ChanceSummary>,
+    /// The query's candidate melody lines searched for, most melody-like first (with more
+    /// than one, each hit's E-value and empirical p are multiplied by their number).
+    pub query_lines: &'a [String],
     /// Best first.
     pub hits: &'a [Hit],
     /// The usual cautions, in short.
@@ -33,6 +36,7 @@ pub fn record(found: &SearchFindings) -> SearchRecord<'_> {
         query: &found.query.provenance,
         corpus: &found.corpus,
         chance: found.chance.as_ref(),
+        query_lines: &found.query_lines,
         hits: &found.hits,
         cautions: super::cautions::SHORT.to_vec(),
     }
@@ -41,12 +45,28 @@ pub fn record(found: &SearchFindings) -> SearchRecord<'_> {
 /// The human table.
 pub fn render_text(found: &SearchFindings) -> String {
     let mut out = format!(
-        "query   {}\ncorpus  {}\n\n",
+        "query   {}\ncorpus  {}\n",
         found.query.provenance.path,
         found.corpus.line()
     );
+    out.push_str(&format!(
+        "lines   {}{}\n\n",
+        found.query_lines.join("; "),
+        if found.query_lines.len() > 1 {
+            format!(
+                " (the query's {} most melody-like lines, each searched for; E-values \
+                 multiplied by {})",
+                found.query_lines.len(),
+                found.query_lines.len()
+            )
+        } else {
+            String::new()
+        }
+    ));
     if found.hits.is_empty() {
-        out.push_str("No melody of the corpus shares a passage with the query.\n");
+        out.push_str(
+            "No melody of the corpus shares a passage with the query lines searched for.\n",
+        );
         out.push_str(&format!("{}\n", absence_caution(found.corpus.melodies)));
         out.push_str(&short_text());
         return out;
@@ -63,7 +83,10 @@ pub fn render_text(found: &SearchFindings) -> String {
                 p.a.bars[0], p.a.bars[1], p.b.bars[0], p.b.bars[1], p.a.notes, p.pmi
             )
         });
-        let name: String = h.path.chars().take(40).collect();
+        let mut name: String = h.path.chars().take(40).collect();
+        if found.query_lines.len() > 1 {
+            name = format!("{name} (query {})", h.query_line);
+        }
         let e = h
             .passages
             .first()

@@ -39,6 +39,12 @@ pub struct SearchArgs {
     /// Melody of the query, e.g. part=P1,bars=9-16.
     #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
     pub select: Option<SelectionSpec>,
+    /// Candidate melody lines of the query searched for (the most melody-like parts, staves
+    /// and voices); each corpus melody keeps its strongest hit. An explicit --select fixes the
+    /// line.
+    #[arg(long, value_name = "N", default_value_t = 3,
+          value_parser = clap::value_parser!(u16).range(1..=12), help_heading = "SELECTION")]
+    pub melody_candidates: u16,
     /// Best matches listed.
     #[arg(value_parser = super::ranges::count(1, 10_000), long, default_value_t = 10, help_heading = "SEARCH")]
     pub top: usize,

@@ -113,6 +113,12 @@ pub struct CompareArgs {
     /// Melody of B, same form as --select-a.
     #[arg(long, value_name = "SPEC", help_heading = "SELECTION")]
     pub select_b: Option<SelectionSpec>,
+    /// Candidate melody lines of each work to pair and check (the most melody-like parts,
+    /// staves and voices); the strongest pairing is compared. 1 checks only the most
+    /// melody-like line of each. An explicit --select-a/--select-b fixes that work's line.
+    #[arg(long, value_name = "N", default_value_t = 3,
+          value_parser = clap::value_parser!(u16).range(1..=12), help_heading = "SELECTION")]
+    pub melody_candidates: u16,
     /// Read both works in performance order: repeats played out, first and second endings
     /// taken in turn.
     #[arg(long, help_heading = "INPUT")]
@@ -149,6 +155,7 @@ impl CompareArgs {
             chance: self.statistics.chance_params(),
             harmony: self.harmony.params()?,
             sync: self.harmony.sync_params(),
+            melody_candidates: usize::from(self.melody_candidates),
         })
     }
 

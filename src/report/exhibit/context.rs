@@ -59,6 +59,11 @@ pub struct ExhibitContext {
     pub harmony: Option<HarmonyContext>,
     /// A recording placed on a score, when one work is each.
     pub sync: Option<SyncContext>,
+    /// Every pairing of candidate melody lines checked, as sentences (one entry when only one
+    /// line of each work was compared).
+    pub pairings: Vec<String>,
+    /// Notes on works whose most melody-like lines are close.
+    pub close_candidates: Vec<String>,
 }
 
 /// Builds the templates' context.
@@ -105,6 +110,11 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         chance: r.chance.as_ref().map(chance_words).unwrap_or_default(),
         chance_caution: r.chance.as_ref().map(chance_caution).unwrap_or_default(),
         harmony: harmony_context(r.harmony.as_ref()),
+        pairings: crate::report::pairings::sentences(&r.pairings),
+        close_candidates: [("A", ex.a), ("B", ex.b)]
+            .iter()
+            .filter_map(|(tag, piece)| crate::report::pairings::close_note(tag, piece))
+            .collect(),
         sync: sync_context(r.synchronisation.as_ref()),
     }
 }
