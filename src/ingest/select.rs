@@ -153,10 +153,11 @@ pub(crate) fn select_melody(mut piece: Piece, choice: &MelodyChoice) -> Result<P
             }
         } else if rank == 0 {
             format!(
-                "most melody-like of {total} candidate lines: likeness {:.2}, {:.0}% single-note onsets, mean pitch {}",
+                "most melody-like of {total} candidate lines: likeness {:.2}, {:.0}% single-note onsets, average pitch near {}",
                 scores[k],
                 100.0 * features[k].single_onsets,
-                pitch_name(60.0 + 12.0 * features[k].pitch_mean)
+                // The nearest note: a mean is not a tuning, so no cents are shown.
+                pitch_name((60.0 + 12.0 * features[k].pitch_mean).round())
             )
         } else {
             format!(
