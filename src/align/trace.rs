@@ -8,6 +8,100 @@ use super::{AlignParams, Step};
 
 const NEG: i32 = i32::MIN / 4;
 
+/// Most cells the traceback matrix may hold (three `i32` per cell: 384 MB). A passage whose
+/// rectangle is larger is traced in a band around the straight line from its first to its last
+/// pair (banded alignment, as in Chao, Pearson & Miller 1992), wide enough to fill this budget;
+/// when the band does not reproduce the scan's score, the best path inside the band is taken.
+pub(crate) const TRACE_CELL_BUDGET: usize = 32 * 1024 * 1024;
+
+/// The cells of a rectangle the traceback keeps: all of them, or a diagonal band.
+struct Grid {
+    rows: usize,
+    cols: usize,
+    /// Half-width of the band in columns (`usize::MAX`: the full rectangle).
+    half: usize,
+    /// Stored columns per row.
+    stride: usize,
+}
+
+impl Grid {
+    fn new(rows: usize, cols: usize, budget: usize) -> Grid {
+        let full = (rows + 1).saturating_mul(cols + 1);
+        if full <= budget {
+            return Grid {
+                rows,
+                cols,
+                half: usize::MAX,
+                stride: cols + 1,
+            };
+        }
+        let half = (budget / (rows + 1)).saturating_sub(3) / 2;
+        let half = half.max(16);
+        Grid {
+            rows,
+            cols,
+            half,
+            stride: 2 * half + 3,
+        }
+    }
+
+    fn cells(&self) -> usize {
+        (self.rows + 1) * self.stride
+    }
+
+    /// The band's centre column in row `r`.
+    fn centre(&self, r: usize) -> usize {
+        if self.rows == 0 {
+            0
+        } else {
+            (r as u128 * self.cols as u128 / self.rows as u128) as usize
+        }
+    }
+
+    /// First and last column of row `r` kept (1-based columns).
+    fn columns(&self, r: usize) -> (usize, usize) {
+        if self.half == usize::MAX {
+            return (1, self.cols);
+        }
+        let c = self.centre(r);
+        (
+            c.saturating_sub(self.half).max(1),
+            (c + self.half).min(self.cols),
+        )
+    }
+
+    /// Storage index of cell (r, c), or `None` outside the band.
+    fn at(&self, r: usize, c: usize) -> Option<usize> {
+        if self.half == usize::MAX {
+            return Some(r * self.stride + c);
+        }
+        let centre = self.centre(r);
+        let offset = c as isize - centre as isize + self.half as isize + 1;
+        (offset >= 0 && (offset as usize) < self.stride).then(|| r * self.stride + offset as usize)
+    }
+}
+
+/// H, E and F over a [`Grid`]: cells outside it read as H = 0 (a local path may start there)
+/// and E = F = minus infinity.
+struct Matrices {
+    grid: Grid,
+    h: Vec<i32>,
+    e: Vec<i32>,
+    f: Vec<i32>,
+}
+
+impl Matrices {
+    fn h(&self, r: usize, c: usize) -> i32 {
+        self.grid.at(r, c).map_or(0, |k| self.h[k])
+    }
+    fn e(&self, r: usize, c: usize) -> i32 {
+        self.grid.at(r, c).map_or(NEG, |k| self.e[k])
+    }
+    fn f(&self, r: usize, c: usize) -> i32 {
+        self.grid.at(r, c).map_or(NEG, |k| self.f[k])
+    }
+}
+
 #[derive(Clone, Copy, PartialEq, Eq)]
 enum State {
     H,
@@ -24,84 +118,105 @@ pub(crate) fn trace(
     blocked: &Blocked,
     hit: &Hit,
 ) -> (Vec<Step>, i32) {
+    trace_within(scorer, params, t, blocked, hit, TRACE_CELL_BUDGET)
+}
+
+/// [`trace`] with a cell budget of its own.
+fn trace_within(
+    scorer: &Scorer,
+    params: &AlignParams,
+    t: u8,
+    blocked: &Blocked,
+    hit: &Hit,
+    budget: usize,
+) -> (Vec<Step>, i32) {
     let (i0, j0) = hit.start;
     let (i1, j1) = hit.end;
     let rows = i1 - i0 + 1;
     let cols = j1 - j0 + 1;
-    let width = cols + 1;
-    let at = |r: usize, c: usize| r * width + c;
-    let mut h = vec![0i32; (rows + 1) * width];
-    let mut e = vec![NEG; (rows + 1) * width];
-    let mut f = vec![NEG; (rows + 1) * width];
+    let grid = Grid::new(rows, cols, budget);
+    let cells = grid.cells();
+    let mut m = Matrices {
+        grid,
+        h: vec![0i32; cells],
+        e: vec![NEG; cells],
+        f: vec![NEG; cells],
+    };
     let open = params.gap_open;
     let extend = params.gap_extend;
     let max_k = scorer.max_fragments;
     let mut best = (0i32, 0usize, 0usize);
     for r in 1..=rows {
-        for c in 1..=cols {
+        let (first, last) = m.grid.columns(r);
+        for c in first..=last {
             let (ai, bj) = (i0 + r - 1, j0 + c - 1);
+            let Some(here) = m.grid.at(r, c) else {
+                continue;
+            };
             if blocked.contains(ai, bj) {
                 continue;
             }
-            e[at(r, c)] = (h[at(r, c - 1)] - open).max(e[at(r, c - 1)] - extend);
-            f[at(r, c)] = (h[at(r - 1, c)] - open).max(f[at(r - 1, c)] - extend);
-            let mut value = h[at(r - 1, c - 1)] + scorer.pair(ai, bj, t);
-            value = value.max(e[at(r, c)]).max(f[at(r, c)]);
+            let e_here = (m.h(r, c - 1) - open).max(m.e(r, c - 1) - extend);
+            let f_here = (m.h(r - 1, c) - open).max(m.f(r - 1, c) - extend);
+            m.e[here] = e_here;
+            m.f[here] = f_here;
+            let mut value = m.h(r - 1, c - 1) + scorer.pair(ai, bj, t);
+            value = value.max(e_here).max(f_here);
             for k in 2..=max_k.min(c) {
                 if let Some(s) = scorer.fragment(ai, bj, k, t) {
-                    value = value.max(h[at(r - 1, c - k)] + s);
+                    value = value.max(m.h(r - 1, c - k) + s);
                 }
             }
             for k in 2..=max_k.min(r) {
                 if let Some(s) = scorer.consolidate(ai, bj, k, t) {
-                    value = value.max(h[at(r - k, c - 1)] + s);
+                    value = value.max(m.h(r - k, c - 1) + s);
                 }
             }
             let value = value.max(0);
-            h[at(r, c)] = value;
+            m.h[here] = value;
             if value > best.0 {
                 best = (value, r, c);
             }
         }
     }
     // Trace from the scan's end cell when it reproduces the score, else from the best cell.
-    let (mut r, mut c) = if h[at(rows, cols)] == hit.score {
+    let (mut r, mut c) = if m.h(rows, cols) == hit.score {
         (rows, cols)
     } else {
         (best.1, best.2)
     };
-    let score = h[at(r, c)];
+    let score = m.h(r, c);
     let mut steps = Vec::new();
     let mut state = State::H;
     while r > 0 && c > 0 {
         let (ai, bj) = (i0 + r - 1, j0 + c - 1);
         match state {
             State::H => {
-                let value = h[at(r, c)];
+                let value = m.h(r, c);
                 if value <= 0 {
                     break;
                 }
-                if value == h[at(r - 1, c - 1)] + scorer.pair(ai, bj, t) {
+                if value == m.h(r - 1, c - 1) + scorer.pair(ai, bj, t) {
                     steps.push(Step::Pair { a: ai, b: bj });
                     r -= 1;
                     c -= 1;
-                    if h[at(r, c)] == 0 {
+                    if m.h(r, c) == 0 {
                         break;
                     }
                     continue;
                 }
-                if value == e[at(r, c)] {
+                if value == m.e(r, c) {
                     state = State::E;
                     continue;
                 }
-                if value == f[at(r, c)] {
+                if value == m.f(r, c) {
                     state = State::F;
                     continue;
                 }
                 let fragment = (2..=max_k.min(c)).find(|&k| {
                     scorer
                         .fragment(ai, bj, k, t)
-                        .is_some_and(|s| value == h[at(r - 1, c - k)] + s)
+                        .is_some_and(|s| value == m.h(r - 1, c - k) + s)
                 });
                 if let Some(k) = fragment {
                     steps.push(Step::Fragmentation {
@@ -111,7 +226,7 @@ pub(crate) fn trace(
                     });
                     r -= 1;
                     c -= k;
-                    if h[at(r, c)] == 0 {
+                    if m.h(r, c) == 0 {
                         break;
                     }
                     continue;
@@ -119,7 +234,7 @@ pub(crate) fn trace(
                 let consolidation = (2..=max_k.min(r)).find(|&k| {
                     scorer
                         .consolidate(ai, bj, k, t)
-                        .is_some_and(|s| value == h[at(r - k, c - 1)] + s)
+                        .is_some_and(|s| value == m.h(r - k, c - 1) + s)
                 });
                 if let Some(k) = consolidation {
                     steps.push(Step::Consolidation {
@@ -129,7 +244,7 @@ pub(crate) fn trace(
                     });
                     r -= k;
                     c -= 1;
-                    if h[at(r, c)] == 0 {
+                    if m.h(r, c) == 0 {
                         break;
                     }
                     continue;
@@ -138,8 +253,8 @@ pub(crate) fn trace(
             }
             State::E => {
                 steps.push(Step::OnlyB { b: bj });
-                let value = e[at(r, c)];
-                state = if value == h[at(r, c - 1)] - open {
+                let value = m.e(r, c);
+                state = if value == m.h(r, c - 1) - open {
                     State::H
                 } else {
                     State::E
@@ -148,8 +263,8 @@ pub(crate) fn trace(
             }
             State::F => {
                 steps.push(Step::OnlyA { a: ai });
-                let value = f[at(r, c)];
-                state = if value == h[at(r - 1, c)] - open {
+                let value = m.f(r, c);
+                state = if value == m.h(r - 1, c) - open {
                     State::H
                 } else {
                     State::F
@@ -160,4 +275,58 @@ pub(crate) fn trace(
     }
     steps.reverse();
     (steps, score)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::features::{MetricLevel, SeqNote, Sequence};
+
+    /// A deterministic melody of `len` notes (a 64-bit linear congruential generator, Knuth's
+    /// MMIX constants): steps and leaps, two rhythms.
+    fn melody(len: usize, seed: u64) -> Sequence {
+        let mut state = seed;
+        let mut pitch = 67i32;
+        let mut notes = Vec::with_capacity(len);
+        let mut previous: Option<f64> = None;
+        for i in 0..len {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            let step = ((state >> 33) % 9) as i32 - 4;
+            let next = (pitch + step).clamp(55, 84);
+            let ioi = if (state >> 40) % 3 == 0 { 0.5 } else { 1.0 };
+            notes.push(SeqNote {
+                pitch: next,
+                pitch_class: next.rem_euclid(12) as u8,
+                interval: (i > 0).then_some(next - pitch),
+                ioi,
+                log_ioi_ratio: previous.map(|p| (ioi / p).log2()),
+                metric: MetricLevel::Weak,
+            });
+            pitch = next;
+            previous = Some(ioi);
+        }
+        Sequence { notes }
+    }
+
+    // A path that stays inside the band is found by a banded alignment exactly (Chao, Pearson &
+    // Miller 1992): the banded trace of a long passage equals the full one.
+    #[test]
+    fn a_banded_trace_reproduces_the_full_trace_of_a_near_diagonal_passage() {
+        let a = melody(300, 1);
+        // B: A with one note dropped and one inserted, so the path leaves the diagonal a little.
+        let mut b = a.clone();
+        b.notes.remove(100);
+        let extra = b.notes[200];
+        b.notes.insert(200, extra);
+        let params = AlignParams::default();
+        let scorer = Scorer::new(&a, &b, &params);
+        let hit = super::super::scan::scan(&scorer, &params, 0, &Blocked::default()).unwrap();
+        let full = trace_within(&scorer, &params, 0, &Blocked::default(), &hit, usize::MAX);
+        // A budget of 40 cells a row: a band of ±18 columns around the diagonal.
+        let banded = trace_within(&scorer, &params, 0, &Blocked::default(), &hit, 40 * 301);
+        assert_eq!(full.1, hit.score);
+        assert_eq!(banded, full);
+    }
 }
