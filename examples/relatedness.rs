@@ -19,7 +19,7 @@
 mod common;
 
 use collatio::align::AlignParams;
-use collatio::corpus::{CorpusIndex, IndexSource, MelodyEntry};
+use collatio::corpus::{Corpus, CorpusIndex, IndexSource, MelodyEntry};
 use collatio::findings::Findings;
 use collatio::pipeline::{search, CorpusRef, SearchSettings};
 use collatio::timeline::Piece;

@@ -31,7 +31,7 @@ use crate::compare::pairing::choose_pairing;
 use crate::compare::recurrence::interval_recurrences;
 use crate::compare::sync::{follow_score, SyncSummary};
 use crate::compare::{compare, Relatedness, Side};
-use crate::corpus::{CorpusIndex, IndexSource};
+use crate::corpus::{Corpus, IndexSource, MelodyEntry};
 use crate::features::Sequence;
 use crate::findings::{CompareSettings, Evidence, Finding, Findings, Hit, SearchFindings};
 use crate::stats::chance::{chance_model, ChanceParams, NullChoice};
@@ -42,8 +42,8 @@ use rayon::prelude::*;
 /// read from.
 #[derive(Debug, Clone, Copy)]
 pub struct CorpusRef<'a> {
-    /// The index.
-    pub index: &'a CorpusIndex,
+    /// The index, in memory or read in place ([`crate::corpus::MappedIndex`]).
+    pub index: &'a dyn Corpus,
     /// The index file: path, SHA-256 and build settings, for the record.
     pub source: &'a IndexSource,
 }
@@ -79,16 +79,16 @@ impl Default for SearchSettings {
 
 /// A sample of `count` melodies of a corpus, drawn with `seed` (all of them when the corpus is
 /// smaller), as sequences: the reference melodies of the corpus null.
-pub fn reference_melodies(index: &CorpusIndex, count: usize, seed: u64) -> Vec<Sequence> {
+pub fn reference_melodies(index: &dyn Corpus, count: usize, seed: u64) -> Vec<Sequence> {
     use rand::seq::index::sample;
     use rand::SeedableRng;
-    let total = index.melodies.len();
+    let total = index.melody_count();
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
     let mut picked: Vec<usize> = sample(&mut rng, total, count.min(total)).into_vec();
     picked.sort_unstable();
     picked
         .par_iter()
-        .map(|&k| Sequence::from_piece(&index.melodies[k].to_piece()))
+        .filter_map(|&k| Some(Sequence::from_piece(&index.melody(k)?.to_piece())))
         .collect()
 }
 
@@ -297,25 +297,22 @@ fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -
     let self_query = self_score(&seq, (0, seq.len().saturating_sub(1)), &settings.align);
     // Rank every candidate by relatedness from the scan alone; align in full, with passages
     // and differences, only the best until `top` share a passage.
-    let mut ranked: Vec<(Relatedness, usize)> = pool
+    let mut ranked: Vec<(Relatedness, MelodyEntry)> = pool
         .par_iter()
         .filter_map(|&(m, _)| {
-            let entry = corpus.index.melodies.get(m as usize)?;
+            let entry = corpus.index.melody(m as usize)?.into_owned();
             let other = Sequence::from_piece(&entry.to_piece());
             let best = best_score(&seq, &other, &settings.align);
             let own = self_score(&other, (0, other.len().saturating_sub(1)), &settings.align);
             (best >= settings.align.min_score)
-                .then(|| (Relatedness::of(best, self_query, own), m as usize))
+                .then(|| (Relatedness::of(best, self_query, own), entry))
         })
         .collect();
     ranked.sort_by(|x, y| {
         y.0.value
             .total_cmp(&x.0.value)
             .then_with(|| y.0.best_score.cmp(&x.0.best_score))
-            .then_with(|| {
-                let path = |k: usize| corpus.index.melodies[k].path.as_str();
-                path(x.1).cmp(path(y.1))
-            })
+            .then_with(|| x.1.path.cmp(&y.1.path))
     });
     let mut hits: Vec<Hit> = Vec::new();
     for chunk in ranked.chunks(settings.top.max(1)) {
@@ -324,8 +321,7 @@ fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -
         }
         let found: Vec<Hit> = chunk
             .par_iter()
-            .filter_map(|&(_, m)| {
-                let entry = &corpus.index.melodies[m];
+            .filter_map(|(_, entry)| {
                 let piece = entry.to_piece();
                 let result = compare(&query, &piece, &settings.align);
                 (!result.passages.is_empty()).then(|| Hit {

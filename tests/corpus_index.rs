@@ -6,7 +6,9 @@
 mod common;
 
 use collatio::align::AlignParams;
-use collatio::corpus::{build_from_dir, figures, slice, tokens, CorpusIndex, IndexError, NGRAM};
+use collatio::corpus::{
+    build_from_dir, figures, slice, tokens, Corpus, CorpusIndex, IndexError, NGRAM,
+};
 use collatio::features::Sequence;
 use collatio::ingest::{read_file, ReadOptions};
 
@@ -128,4 +130,85 @@ fn weighted_similarity_ranks_family_above_strangers() {
     assert!(stranger < kin / 3.0, "{stranger} vs {kin}");
     let same = index.weighted_similarity(&twinkle, &twinkle);
     assert!((same - 1.0).abs() < 1e-12);
+}
+
+/// The index read in place (format 3) gives the same search and comparison records, byte for
+/// byte, as the same corpus read whole from the previous format: every fixture as the query,
+/// default settings (corpus null included), one record of the index for both.
+#[test]
+fn mapped_index_gives_the_same_findings_as_the_index_in_memory() {
+    use collatio::corpus::{IndexBytes, IndexSource, MappedIndex};
+    use collatio::findings::CompareSettings;
+    use collatio::pipeline::{compare_works, search, CorpusRef, SearchSettings};
+    let built = index();
+    let legacy = built.to_legacy_bytes().unwrap();
+    let whole = CorpusIndex::from_bytes(&legacy).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("tunes.idx");
+    std::fs::write(&path, built.to_bytes().unwrap()).unwrap();
+    let file = std::fs::File::open(&path).unwrap();
+    let mapped = MappedIndex::open(IndexBytes::map(&file).unwrap()).unwrap();
+    mapped.verify().unwrap();
+    let source = IndexSource::new("tunes.idx", &legacy, &whole);
+    let names: Vec<_> = std::fs::read_dir(common::fixture("tune_family"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
+    assert_eq!(names.len(), 8);
+    for name in &names {
+        let query = read_file(name, &ReadOptions::default()).unwrap();
+        let record = |index: &dyn Corpus| {
+            let corpus = CorpusRef {
+                index,
+                source: &source,
+            };
+            let found = search(query.clone(), corpus, &SearchSettings::default());
+            serde_json::to_string_pretty(&collatio::report::search::record(&found)).unwrap()
+        };
+        let expected = record(&whole);
+        assert!(expected.contains("\"hits\""));
+        assert_eq!(record(&mapped), expected, "{}", name.display());
+    }
+    let a = read_file(&names[0], &ReadOptions::default()).unwrap();
+    let b = read_file(&names[1], &ReadOptions::default()).unwrap();
+    let compared = |index: &dyn Corpus| {
+        let corpus = CorpusRef {
+            index,
+            source: &source,
+        };
+        let found = compare_works(
+            a.clone(),
+            b.clone(),
+            &CompareSettings::default(),
+            Some(corpus),
+        );
+        serde_json::to_string(&collatio::report::compare::record(&found)).unwrap()
+    };
+    assert_eq!(compared(&mapped), compared(&whole));
+    assert!(mapped.failure().is_none());
+    assert_eq!(
+        mapped.to_index().unwrap().to_bytes().unwrap(),
+        built.to_bytes().unwrap()
+    );
+}
+
+/// A damaged section of an index read in place: opening succeeds (only the table is read),
+/// the damage is found when the section is read, and always by `verify`.
+#[test]
+fn damaged_section_is_found_when_read() {
+    use collatio::corpus::{IndexBytes, MappedIndex};
+    let mut bytes = index().to_bytes().unwrap();
+    let last = bytes.len() - 1;
+    bytes[last] ^= 0xff;
+    let mapped = MappedIndex::open(IndexBytes::Owned(bytes)).unwrap();
+    assert!(mapped.failure().is_none());
+    let err = mapped.verify().unwrap_err();
+    assert!(
+        err.to_string().contains("checksum mismatch in section"),
+        "{err}"
+    );
+    assert!(mapped.melody(7).is_none());
+    assert!(matches!(mapped.failure(), Some(IndexError::Corrupt(_))));
+    // Earlier melodies live in sections of their own and are still read.
+    assert!(mapped.melody(0).is_some());
 }

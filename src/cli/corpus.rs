@@ -1,9 +1,13 @@
 //! `collatio corpus build` and `collatio search`: a reference corpus of prior art.
 
-use super::args::{BuildArgs, OutputFormat, SearchArgs};
+use super::args::{BuildArgs, OutputFormat, SearchArgs, VerifyArgs};
 use anyhow::{Context, Result};
 use collatio::corpus::index::MAX_INDEX_BYTES;
-use collatio::corpus::{build_from_dir, corpus_files, CorpusIndex, IndexSource};
+use collatio::corpus::mapped::version_of;
+use collatio::corpus::{
+    build_from_dir, corpus_files, Corpus, CorpusIndex, IndexBytes, IndexError, IndexSource,
+    MappedIndex, VERSION,
+};
 use collatio::ingest::{read_file, ReadOptions};
 use collatio::pipeline::{search as search_corpus, CorpusRef, SearchSettings};
 use collatio::report::output::{check_outputs, write_atomic};
@@ -11,8 +15,40 @@ use std::io::IsTerminal;
 use std::io::Write;
 use std::path::Path;
 
-/// Reads an index file with the file named in errors, and the identity of the file as read.
-pub fn load_index(path: &Path) -> Result<(CorpusIndex, IndexSource)> {
+/// An index as opened: read in place (format 3) or whole (the previous format).
+#[derive(Debug)]
+pub enum LoadedIndex {
+    /// Read in place; sections checked as they are touched.
+    Mapped(MappedIndex),
+    /// Read whole and checked on load.
+    Whole(CorpusIndex),
+}
+
+impl LoadedIndex {
+    /// The index for a search or a comparison.
+    pub fn corpus(&self) -> &dyn Corpus {
+        match self {
+            LoadedIndex::Mapped(m) => m,
+            LoadedIndex::Whole(w) => w,
+        }
+    }
+
+    /// Refuses findings computed from an index found corrupt while reading it.
+    pub fn check(&self, path: &Path) -> Result<()> {
+        match self {
+            LoadedIndex::Mapped(m) => match m.failure() {
+                Some(e) => Err(anyhow::anyhow!("{}: {e}", path.display())),
+                None => Ok(()),
+            },
+            LoadedIndex::Whole(_) => Ok(()),
+        }
+    }
+}
+
+/// Opens an index file with the file named in errors, and the identity of the file as read.
+/// A format-3 index is mapped and only its header and section table are checked here; the
+/// previous format is read whole and checked in full.
+pub fn load_index(path: &Path) -> Result<(LoadedIndex, IndexSource)> {
     use std::io::Read;
     let named = |e: String| anyhow::anyhow!("{}: {e}", path.display());
     collatio::ingest::regular_file(path).map_err(|e| named(e.to_string()))?;
@@ -27,17 +63,51 @@ pub fn load_index(path: &Path) -> Result<(CorpusIndex, IndexSource)> {
     if size > MAX_INDEX_BYTES {
         return Err(too_big(size));
     }
-    let mut bytes = Vec::new();
+    let mut head = Vec::new();
+    (&file)
+        .take(20)
+        .read_to_end(&mut head)
+        .with_context(|| format!("{}: cannot read", path.display()))?;
+    let version = version_of(&head).or_else(|e| match e {
+        // Too short to hold a version: read whole below, which names the problem.
+        IndexError::Corrupt(_) => Ok(0),
+        e => Err(named(e.to_string())),
+    })?;
+    if version == VERSION {
+        let bytes =
+            IndexBytes::map(&file).with_context(|| format!("{}: cannot read", path.display()))?;
+        let index = MappedIndex::open(bytes).map_err(|e| named(e.to_string()))?;
+        let source = IndexSource::of_mapped(&path.display().to_string(), &index);
+        return Ok((LoadedIndex::Mapped(index), source));
+    }
+    let mut bytes = head;
     file.take(MAX_INDEX_BYTES + 1)
         .read_to_end(&mut bytes)
         .with_context(|| format!("{}: cannot read", path.display()))?;
     if bytes.len() as u64 > MAX_INDEX_BYTES {
         return Err(too_big(bytes.len() as u64));
     }
-    let index =
-        CorpusIndex::from_bytes(&bytes).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))?;
-    let source = IndexSource::new(&path.display().to_string(), &bytes, &index);
-    Ok((index, source))
+    let index = CorpusIndex::from_bytes(&bytes).map_err(|e| named(e.to_string()))?;
+    let mut source = IndexSource::new(&path.display().to_string(), &bytes, &index);
+    source.format_version = version;
+    Ok((LoadedIndex::Whole(index), source))
+}
+
+/// Runs `corpus verify`: every section's checksum and every field of an index.
+pub fn verify(args: &VerifyArgs) -> Result<i32> {
+    let (index, source) = load_index(&args.index)?;
+    if let LoadedIndex::Mapped(m) = &index {
+        m.verify()
+            .map_err(|e| anyhow::anyhow!("{}: {e}", args.index.display()))?;
+    }
+    say!(
+        "collatio: {}: a sound index of {} melodies (format {}, {} bytes): every section and field checked",
+        args.index.display(),
+        source.melodies,
+        source.format_version,
+        source.bytes
+    );
+    Ok(super::EXIT_OK)
 }
 
 /// Runs `corpus build`.
@@ -142,16 +212,18 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         },
     };
     let corpus = CorpusRef {
-        index: &index,
+        index: index.corpus(),
         source: &source,
     };
-    if index.melodies.is_empty() {
+    let empty = source.melodies == 0;
+    if empty {
         say!(
             "collatio: warning: {}: the corpus index holds no melodies; nothing can match",
             args.corpus.display()
         );
     }
     let found = search_corpus(query, corpus, &settings);
+    index.check(&args.corpus)?;
     let text = match args.format {
         OutputFormat::Json => {
             let mut s = serde_json::to_string_pretty(&collatio::report::search::record(&found))?;
@@ -161,7 +233,7 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
         OutputFormat::Text => collatio::report::search::render_text(&found),
     };
     super::write_stdout(&text)?;
-    Ok(if index.melodies.is_empty() {
+    Ok(if empty {
         super::EXIT_PARTIAL
     } else {
         super::EXIT_OK

@@ -79,6 +79,7 @@ fn run(cli: Cli) -> Result<i32> {
         Command::Inspect(args) => inspect(*args),
         Command::Compare(args) => compare(*args),
         Command::Corpus(args::CorpusCommand::Build(args)) => corpus::build(&args),
+        Command::Corpus(args::CorpusCommand::Verify(args)) => corpus::verify(&args),
         Command::Search(args) => corpus::search(&args),
     }
 }
@@ -100,10 +101,14 @@ fn compare(args: CompareArgs) -> Result<i32> {
         Some(path) => Some(corpus::load_index(path)?),
         None => None,
     };
-    let corpus = index
-        .as_ref()
-        .map(|(index, source)| CorpusRef { index, source });
+    let corpus = index.as_ref().map(|(index, source)| CorpusRef {
+        index: index.corpus(),
+        source,
+    });
     let findings = compare_works(a, b, &settings, corpus);
+    if let (Some((index, _)), Some(path)) = (&index, &args.statistics.corpus) {
+        index.check(path)?;
+    }
     let json_to_stdout = args.exhibit.json_to_stdout();
     if let Some((options, outputs)) = exhibit.as_ref().filter(|(_, o)| o.any()) {
         let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;

@@ -2,7 +2,8 @@
 //! corpus melodies, and the corpus-weighted similarity of the two melodies (Müllensiefen &
 //! Pendzich 2009).
 
-use super::index::{figures, tokens, CorpusIndex};
+use super::index::{figures, tokens};
+use super::mapped::Corpus;
 use super::source::IndexSource;
 use crate::align::{best_score, AlignParams};
 use crate::compare::Passage;
@@ -32,78 +33,86 @@ pub struct Commonness {
     pub similar: usize,
 }
 
-impl CorpusIndex {
-    /// How many melodies contain a figure (a passage of a melody): exactly (the same tokens in a
-    /// row) and within the alignment's tolerance (a local alignment scoring at least
-    /// `tolerance` times the figure's score against itself, among the `limit` best candidates).
-    pub fn commonness(
-        &self,
-        figure: &Sequence,
-        params: &AlignParams,
-        tolerance: f64,
-        limit: usize,
-    ) -> (usize, usize) {
-        let toks = tokens(figure);
-        if toks.len() < self.ngram {
-            return (0, 0);
-        }
-        let figs = figures(&toks, self.ngram);
-        // Exact: melodies holding every figure, then checked for the whole run in order.
-        let mut common: Option<Vec<u32>> = None;
-        for f in &figs {
-            let p = self.postings_of(*f);
-            common = Some(match common {
-                None => p.to_vec(),
-                Some(c) => c
-                    .into_iter()
-                    .filter(|m| p.binary_search(m).is_ok())
-                    .collect(),
-            });
-        }
-        let exact = common
-            .unwrap_or_default()
-            .into_iter()
-            .filter(|&m| {
-                let seq = Sequence::from_piece(&self.melodies[m as usize].to_piece());
-                tokens(&seq)
-                    .windows(toks.len())
-                    .any(|w| w == toks.as_slice())
-            })
-            .count();
-        let own = best_score(figure, figure, params);
-        let threshold = (f64::from(own) * tolerance).ceil() as i32;
-        let similar = self
-            .candidates(figure, limit)
-            .into_iter()
-            .filter(|&(m, _)| {
-                let seq = Sequence::from_piece(&self.melodies[m as usize].to_piece());
-                best_score(figure, &seq, params) >= threshold.max(1)
-            })
-            .count();
-        (exact, similar.max(exact))
+/// How many melodies contain a figure (a passage of a melody): exactly (the same tokens in a
+/// row) and within the alignment's tolerance (a local alignment scoring at least
+/// `tolerance` times the figure's score against itself, among the `limit` best candidates).
+pub(crate) fn commonness<C: Corpus + ?Sized>(
+    corpus: &C,
+    figure: &Sequence,
+    params: &AlignParams,
+    tolerance: f64,
+    limit: usize,
+) -> (usize, usize) {
+    let toks = tokens(figure);
+    if toks.len() < corpus.ngram() {
+        return (0, 0);
     }
+    let figs = figures(&toks, corpus.ngram());
+    // Exact: melodies holding every figure, then checked for the whole run in order.
+    let mut common: Option<Vec<u32>> = None;
+    for f in &figs {
+        let p = corpus.postings(*f);
+        common = Some(match common {
+            None => p.to_vec(),
+            Some(c) => c
+                .into_iter()
+                .filter(|m| p.binary_search(m).is_ok())
+                .collect(),
+        });
+    }
+    let exact = common
+        .unwrap_or_default()
+        .into_iter()
+        .filter(|&m| {
+            let seq = match corpus.melody(m as usize) {
+                Some(e) => Sequence::from_piece(&e.to_piece()),
+                None => return false,
+            };
+            tokens(&seq)
+                .windows(toks.len())
+                .any(|w| w == toks.as_slice())
+        })
+        .count();
+    let own = best_score(figure, figure, params);
+    let threshold = (f64::from(own) * tolerance).ceil() as i32;
+    let similar = corpus
+        .candidates(figure, limit)
+        .into_iter()
+        .filter(|&(m, _)| {
+            let seq = match corpus.melody(m as usize) {
+                Some(e) => Sequence::from_piece(&e.to_piece()),
+                None => return false,
+            };
+            best_score(figure, &seq, params) >= threshold.max(1)
+        })
+        .count();
+    (exact, similar.max(exact))
+}
 
-    /// Corpus-weighted similarity of two melodies after Müllensiefen & Pendzich (2009):
-    /// Tversky's ratio model over their figure sets, each figure weighted by its IDF in this
-    /// corpus: σ = f(s∩t) / (f(s∩t) + α f(s∖t) + β f(t∖s)), with α = β = 0.5 (our choice).
-    pub fn weighted_similarity(&self, a: &Sequence, b: &Sequence) -> f64 {
-        let set = |s: &Sequence| {
-            let mut f = figures(&tokens(s), self.ngram);
-            f.sort_unstable();
-            f.dedup();
-            f
-        };
-        let (sa, sb) = (set(a), set(b));
-        let weight = |xs: &mut dyn Iterator<Item = &u64>| xs.map(|&f| self.idf(f)).sum::<f64>();
-        let both = weight(&mut sa.iter().filter(|f| sb.binary_search(f).is_ok()));
-        let only_a = weight(&mut sa.iter().filter(|f| sb.binary_search(f).is_err()));
-        let only_b = weight(&mut sb.iter().filter(|f| sa.binary_search(f).is_err()));
-        let denominator = both + 0.5 * only_a + 0.5 * only_b;
-        if denominator > 0.0 {
-            both / denominator
-        } else {
-            0.0
-        }
+/// Corpus-weighted similarity of two melodies after Müllensiefen & Pendzich (2009):
+/// Tversky's ratio model over their figure sets, each figure weighted by its IDF in this
+/// corpus: σ = f(s∩t) / (f(s∩t) + α f(s∖t) + β f(t∖s)), with α = β = 0.5 (our choice).
+pub(crate) fn weighted_similarity<C: Corpus + ?Sized>(
+    corpus: &C,
+    a: &Sequence,
+    b: &Sequence,
+) -> f64 {
+    let set = |s: &Sequence| {
+        let mut f = figures(&tokens(s), corpus.ngram());
+        f.sort_unstable();
+        f.dedup();
+        f
+    };
+    let (sa, sb) = (set(a), set(b));
+    let weight = |xs: &mut dyn Iterator<Item = &u64>| xs.map(|&f| corpus.idf(f)).sum::<f64>();
+    let both = weight(&mut sa.iter().filter(|f| sb.binary_search(f).is_ok()));
+    let only_a = weight(&mut sa.iter().filter(|f| sb.binary_search(f).is_err()));
+    let only_b = weight(&mut sb.iter().filter(|f| sa.binary_search(f).is_err()));
+    let denominator = both + 0.5 * only_a + 0.5 * only_b;
+    if denominator > 0.0 {
+        both / denominator
+    } else {
+        0.0
     }
 }
 
@@ -120,7 +129,7 @@ pub fn assess(
     passages: &[Passage],
     a: &Sequence,
     b: &Sequence,
-    index: &CorpusIndex,
+    index: &dyn Corpus,
     source: &IndexSource,
     params: &AlignParams,
 ) -> (CorpusSummary, Vec<Commonness>) {
@@ -132,7 +141,7 @@ pub fn assess(
             let (exact, similar) =
                 index.commonness(&figure, params, SIMILAR_SHARE, SIMILAR_CANDIDATES);
             Commonness {
-                corpus_melodies: index.melodies.len(),
+                corpus_melodies: index.melody_count(),
                 exact,
                 similar,
             }

@@ -7,9 +7,10 @@
 //! figures indexed, with the melodies that contain each. Rarity is inverse document frequency,
 //! IDF(τ) = ln(|C| / |{m ∈ C : τ ∈ m}|), as in Müllensiefen & Pendzich (2009).
 //!
-//! The file: 16-byte magic `COLLATIO-CORPUS\0`, format version (u32 LE), payload length
-//! (u64 LE), SHA-256 of the payload (32 bytes), payload (bincode). A foreign, truncated or
-//! corrupt file gets a clear error.
+//! The file is written in format version 3 ([`super::mapped`]: sections read in place); the
+//! previous version 2 (16-byte magic `COLLATIO-CORPUS\0`, format version (u32 LE), payload
+//! length (u64 LE), SHA-256 of the payload (32 bytes), payload (bincode)) is still read whole.
+//! A foreign, truncated or corrupt file gets a clear error.
 
 use super::melody::MelodyEntry;
 use crate::features::{interval_size_class, Sequence};
@@ -27,8 +28,11 @@ pub const CONTOUR_NGRAM: usize = 5;
 const CONTOUR_TAG: u64 = 1 << 63;
 /// Index file magic.
 pub const MAGIC: &[u8; 16] = b"COLLATIO-CORPUS\0";
-/// Index format version.
-pub const VERSION: u32 = 2;
+/// Index format version written (and read in place: [`super::mapped`]).
+pub const VERSION: u32 = super::mapped::MAPPED_VERSION;
+/// The previous format version (one checksummed bincode payload), still read whole into
+/// memory.
+pub const LEGACY_VERSION: u32 = 2;
 const HEADER: usize = 16 + 4 + 8 + 32;
 /// Largest index file read, in bytes (4 GiB: about a million melodies of a few hundred notes).
 pub const MAX_INDEX_BYTES: u64 = 4 << 30;
@@ -40,7 +44,7 @@ pub enum IndexError {
     #[error("not a collatio corpus index (the file does not start with the index header)")]
     Foreign,
     /// Written by another format version.
-    #[error("index format version {found}; this collatio reads version {VERSION} (rebuild it with `collatio corpus build`)")]
+    #[error("index format version {found}; this collatio reads versions {LEGACY_VERSION} and {VERSION} (rebuild it with `collatio corpus build`)")]
     Version {
         /// Version in the file.
         found: u32,
@@ -137,23 +141,40 @@ impl CorpusIndex {
         }
     }
 
-    /// The index file's bytes.
+    /// The index file's bytes, in format [`VERSION`] ([`super::mapped`]).
     pub fn to_bytes(&self) -> Result<Vec<u8>, IndexError> {
+        super::mapped::encode(self)
+    }
+
+    /// The bytes of the previous format version ([`LEGACY_VERSION`]): magic, version, payload
+    /// length (u64 LE), SHA-256 of the payload, payload (bincode).
+    pub fn to_legacy_bytes(&self) -> Result<Vec<u8>, IndexError> {
         let payload = codec()
             .serialize(self)
             .map_err(|e| IndexError::Encode(e.to_string()))?;
         let mut out = Vec::with_capacity(HEADER + payload.len());
         out.extend_from_slice(MAGIC);
-        out.extend_from_slice(&VERSION.to_le_bytes());
+        out.extend_from_slice(&LEGACY_VERSION.to_le_bytes());
         out.extend_from_slice(&(payload.len() as u64).to_le_bytes());
         out.extend_from_slice(&Sha256::digest(&payload));
         out.extend_from_slice(&payload);
         Ok(out)
     }
 
-    /// Reads an index file's bytes, checking magic, version, length and checksum, then every
-    /// field ([`super::validate`]).
+    /// Reads an index file's bytes whole, checking every section and every field
+    /// ([`super::mapped::MappedIndex::verify`]); files of the previous format version are read
+    /// too.
     pub fn from_bytes(bytes: &[u8]) -> Result<CorpusIndex, IndexError> {
+        if super::mapped::version_of(bytes)? == LEGACY_VERSION {
+            return CorpusIndex::from_legacy_bytes(bytes);
+        }
+        super::mapped::MappedIndex::open(super::mapped::IndexBytes::Owned(bytes.to_vec()))?
+            .to_index()
+    }
+
+    /// Reads the previous format version, checking magic, version, length and checksum, then
+    /// every field ([`super::validate`]).
+    pub fn from_legacy_bytes(bytes: &[u8]) -> Result<CorpusIndex, IndexError> {
         if bytes.len() < 16 || &bytes[..16] != MAGIC {
             return Err(IndexError::Foreign);
         }
@@ -164,7 +185,7 @@ impl CorpusIndex {
             )));
         }
         let version = u32::from_le_bytes([bytes[16], bytes[17], bytes[18], bytes[19]]);
-        if version != VERSION {
+        if version != LEGACY_VERSION {
             return Err(IndexError::Version { found: version });
         }
         let mut len = [0u8; 8];
@@ -195,33 +216,5 @@ impl CorpusIndex {
             Ok(i) => &self.postings[i].1,
             Err(_) => &[],
         }
-    }
-
-    /// IDF of a figure: ln(|C| / df); a figure absent from the corpus counts as rare as one
-    /// found once, ln |C|; a figure in every melody weighs 0.
-    pub fn idf(&self, figure: u64) -> f64 {
-        let df = self.postings_of(figure).len();
-        if df == 0 {
-            // Unseen in the corpus: as rare as a figure found once.
-            (self.melodies.len().max(1) as f64).ln()
-        } else {
-            (self.melodies.len() as f64 / df as f64).ln()
-        }
-    }
-
-    /// Candidate melodies for a query: IDF-weighted count of the shared figures of both kinds
-    /// ([`retrieval_figures`]), best first, at most `limit` (ties by index order).
-    pub fn candidates(&self, query: &Sequence, limit: usize) -> Vec<(u32, f64)> {
-        let mut weight: BTreeMap<u32, f64> = BTreeMap::new();
-        for f in retrieval_figures(query) {
-            let idf = self.idf(f);
-            for &m in self.postings_of(f) {
-                *weight.entry(m).or_default() += idf;
-            }
-        }
-        let mut ranked: Vec<(u32, f64)> = weight.into_iter().collect();
-        ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
-        ranked.truncate(limit);
-        ranked
     }
 }

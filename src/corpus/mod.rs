@@ -2,6 +2,7 @@
 //! how common a figure is.
 //!
 //! - [`index`]: the index file, its figures and postings, IDF and candidate retrieval.
+//! - [`mapped`]: the index file read in place, sections checked as a query touches them.
 //! - [`melody`]: a melody in and out of the index's slim form.
 //! - [`build`]: an index from a folder of music files.
 //! - [`assess`]: commonness of passages and corpus-weighted similarity for a comparison.
@@ -17,6 +18,7 @@
 pub mod assess;
 pub mod build;
 pub mod index;
+pub mod mapped;
 pub mod melody;
 pub mod source;
 pub mod validate;
@@ -24,5 +26,6 @@ pub mod validate;
 pub use assess::{assess, slice, Commonness, CorpusSummary, SIMILAR_CANDIDATES, SIMILAR_SHARE};
 pub use build::{build_from_dir, corpus_files, Built, CORPUS_EXTENSIONS};
 pub use index::{figures, tokens, CorpusIndex, IndexError, MAGIC, NGRAM, VERSION};
+pub use mapped::{Corpus, IndexBytes, MappedIndex};
 pub use melody::{MelodyEntry, StoredBar, StoredNote};
 pub use source::IndexSource;

@@ -1,6 +1,7 @@
 //! The identity of an index file as read, for the record of every output that consulted it.
 
-use super::index::{CorpusIndex, VERSION};
+use super::index::VERSION;
+use super::mapped::{Corpus, MappedIndex};
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 
@@ -10,7 +11,9 @@ use sha2::{Digest, Sha256};
 pub struct IndexSource {
     /// Path as given by the user.
     pub path: String,
-    /// SHA-256 of the file's bytes, lower-case hex.
+    /// SHA-256, lower-case hex: of the file's bytes for an index read whole
+    /// ([`IndexSource::new`]); of the header's fields and the section table (which holds the
+    /// SHA-256 of every section) for an index read in place ([`IndexSource::of_mapped`]).
     pub sha256: String,
     /// Size of the file in bytes.
     pub bytes: u64,
@@ -24,7 +27,7 @@ pub struct IndexSource {
 
 impl IndexSource {
     /// The identity of `index`, read from the file `path` whose bytes were `file`.
-    pub fn new(path: &str, file: &[u8], index: &CorpusIndex) -> IndexSource {
+    pub fn new(path: &str, file: &[u8], index: &dyn Corpus) -> IndexSource {
         IndexSource {
             path: path.to_string(),
             sha256: Sha256::digest(file)
@@ -33,8 +36,25 @@ impl IndexSource {
                 .collect(),
             bytes: file.len() as u64,
             format_version: VERSION,
-            figure_length: index.ngram,
-            melodies: index.melodies.len(),
+            figure_length: index.ngram(),
+            melodies: index.melody_count(),
+        }
+    }
+
+    /// The identity of an index read in place from the file `path`, without reading its
+    /// sections: its SHA-256 is [`MappedIndex::identity`].
+    pub fn of_mapped(path: &str, index: &MappedIndex) -> IndexSource {
+        IndexSource {
+            path: path.to_string(),
+            sha256: index
+                .identity()
+                .iter()
+                .map(|b| format!("{b:02x}"))
+                .collect(),
+            bytes: index.file_bytes(),
+            format_version: VERSION,
+            figure_length: index.ngram(),
+            melodies: index.melody_count(),
         }
     }
 

@@ -53,7 +53,8 @@ pub fn validate(
     Ok(())
 }
 
-fn melody_ok(m: &MelodyEntry) -> Result<(), String> {
+/// Checks one melody's path, key, bars and notes.
+pub(crate) fn melody_ok(m: &MelodyEntry) -> Result<(), String> {
     if m.path.is_empty() {
         return Err("no path".into());
     }

@@ -14,6 +14,18 @@ pub enum CorpusCommand {
   collatio corpus build demo/corpus -o target/demo/corpus.idx
   collatio search new-song.musicxml --corpus target/demo/corpus.idx")]
     Build(BuildArgs),
+    /// Check every section's checksum and every field of an index (a search checks only the
+    /// sections it reads).
+    #[command(after_long_help = "Examples:
+  collatio corpus verify target/demo/corpus.idx")]
+    Verify(VerifyArgs),
+}
+
+/// `corpus verify`.
+#[derive(Debug, Args)]
+pub struct VerifyArgs {
+    /// Index file to check.
+    pub index: PathBuf,
 }
 
 /// `corpus build`.

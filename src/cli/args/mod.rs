@@ -8,7 +8,7 @@ mod output;
 mod ranges;
 
 pub use analysis::{AlignmentArgs, HarmonyArgs, StatisticsArgs};
-pub use corpus::{BuildArgs, CorpusCommand, SearchArgs};
+pub use corpus::{BuildArgs, CorpusCommand, SearchArgs, VerifyArgs};
 pub use error::UsageError;
 pub use input::{AudioArgs, InspectArgs, LimitArgs, SelectionSpec};
 pub use output::{ExhibitArgs, OutputFormat};
