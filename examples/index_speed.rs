@@ -86,6 +86,26 @@ fn open_and_search(path: &std::path::Path, q: &MelodyEntry, settings: &SearchSet
     found.hits.len()
 }
 
+fn open_and_read(path: &std::path::Path, q: &MelodyEntry) -> usize {
+    use collatio::corpus::Corpus;
+    let file = std::fs::File::open(path).unwrap();
+    let index = MappedIndex::open(IndexBytes::map(&file).unwrap()).unwrap();
+    let seq = collatio::features::Sequence::from_piece(&q.to_piece());
+    let settings = SearchSettings::default();
+    let pool = index.candidates(&seq, settings.candidates);
+    let refs = collatio::pipeline::reference_melodies(
+        &index,
+        settings.chance.references,
+        settings.chance.shuffles.seed,
+    );
+    let read = pool
+        .iter()
+        .filter_map(|&(m, _)| index.melody(m as usize))
+        .count();
+    assert!(index.failure().is_none());
+    read + refs.len()
+}
+
 fn median(mut xs: Vec<f64>) -> f64 {
     xs.sort_by(f64::total_cmp);
     xs[xs.len() / 2]
@@ -98,7 +118,7 @@ fn main() {
         .collect();
     let dir = tempfile::tempdir().unwrap();
     println!(
-        "melodies\tindex_bytes\tbuild_s\tmedian_ms\tmax_ms\tno_chance_median_ms\tno_chance_max_ms"
+        "melodies\tindex_bytes\tbuild_s\tmedian_ms\tmax_ms\tno_chance_median_ms\tno_chance_max_ms\tindex_median_ms\tindex_max_ms"
     );
     for &size in &sizes {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(16);
@@ -127,13 +147,25 @@ fn main() {
             row.push(median(times.clone()));
             row.push(times.iter().copied().fold(0.0, f64::max));
         }
+        let times: Vec<f64> = queries
+            .iter()
+            .map(|q| {
+                let t = Instant::now();
+                assert!(open_and_read(&path, q) > 0);
+                t.elapsed().as_secs_f64() * 1e3
+            })
+            .collect();
+        row.push(median(times.clone()));
+        row.push(times.iter().copied().fold(0.0, f64::max));
         println!(
-            "{size}\t{}\t{build:.1}\t{:.1}\t{:.1}\t{:.1}\t{:.1}",
+            "{size}\t{}\t{build:.1}\t{:.1}\t{:.1}\t{:.1}\t{:.1}\t{:.1}\t{:.1}",
             bytes.len(),
             row[0],
             row[1],
             row[2],
-            row[3]
+            row[3],
+            row[4],
+            row[5]
         );
     }
 }

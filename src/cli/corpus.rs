@@ -65,7 +65,7 @@ pub fn load_index(path: &Path) -> Result<(LoadedIndex, IndexSource)> {
     }
     let mut head = Vec::new();
     (&file)
-        .take(20)
+        .take(64)
         .read_to_end(&mut head)
         .with_context(|| format!("{}: cannot read", path.display()))?;
     let version = version_of(&head).or_else(|e| match e {

@@ -202,17 +202,19 @@ fn u64_at(b: &[u8], at: usize) -> Option<u64> {
     Some(u64::from_le_bytes(b.get(at..at + 8)?.try_into().ok()?))
 }
 
-/// The format version of an index file's bytes, once the magic is found.
+/// The format version of an index file's bytes, once the magic is found; a file shorter than
+/// the smallest header (60 bytes, format 2) is corrupt whatever its version.
 pub fn version_of(bytes: &[u8]) -> Result<u32, IndexError> {
     if bytes.len() < 16 || &bytes[..16] != MAGIC {
         return Err(IndexError::Foreign);
     }
-    u32_at(bytes, 16).ok_or_else(|| {
-        IndexError::Corrupt(format!(
+    match u32_at(bytes, 16) {
+        Some(version) if bytes.len() >= 60 => Ok(version),
+        _ => Err(IndexError::Corrupt(format!(
             "{} bytes, shorter than the index header",
             bytes.len()
-        ))
-    })
+        ))),
+    }
 }
 
 fn corrupt<T>(what: impl Into<String>) -> Result<T, IndexError> {
