@@ -588,12 +588,16 @@ impl Corpus for MappedIndex {
         if id >= self.melodies {
             return None;
         }
-        let k = id / MELODIES_PER_SECTION;
+        // The section holding the melody: the last whose first melody is at most `id` (the
+        // table's sections were checked contiguous on opening; their sizes are read, not
+        // assumed).
+        let k = self
+            .melody_sections
+            .partition_point(|s| s.first <= id as u64)
+            .checked_sub(1)?;
+        let j = usize::try_from(id as u64 - self.melody_sections[k].first).ok()?;
         match self.melody_page(k) {
-            Ok(mut page) => {
-                let j = id - k * MELODIES_PER_SECTION;
-                (j < page.len()).then(|| Cow::Owned(page.swap_remove(j)))
-            }
+            Ok(mut page) => (j < page.len()).then(|| Cow::Owned(page.swap_remove(j))),
             Err(e) => {
                 self.fail(e);
                 None
