@@ -214,3 +214,25 @@ fn damaged_section_is_found_when_read() {
     // Earlier melodies live in sections of their own and are still read.
     assert!(mapped.melody(0).is_some());
 }
+
+/// Every single byte of an index file is covered by a check: flipping any one of them makes
+/// the file foreign or corrupt, on opening or in `verify`, and reading the damaged index never
+/// panics.
+#[test]
+fn every_byte_of_the_file_is_checked() {
+    use collatio::corpus::{IndexBytes, MappedIndex};
+    let good = index().to_bytes().unwrap();
+    let query = sequence("twinkle_c_4-4.musicxml");
+    for at in 0..good.len() {
+        let mut bytes = good.clone();
+        bytes[at] ^= 0x5a;
+        assert!(CorpusIndex::from_bytes(&bytes).is_err(), "byte {at}");
+        if let Ok(mapped) = MappedIndex::open(IndexBytes::Owned(bytes)) {
+            assert!(mapped.verify().is_err(), "byte {at}");
+            let _ = mapped.candidates(&query, 100);
+            for m in 0..mapped.melody_count() {
+                let _ = mapped.melody(m);
+            }
+        }
+    }
+}
