@@ -81,6 +81,40 @@ fn compare_with_a_corpus_reports_commonness() {
         text.contains(&v["corpus"]["sha256"].as_str().unwrap()[..16]),
         "{text}"
     );
+    // The exhibit identifies the corpus too (read back with poppler's pdftotext when present).
+    let pdf = tmp.path().join("exhibit.pdf");
+    let (code, _, stderr) = run(&[
+        "compare",
+        &a,
+        &b,
+        "--corpus",
+        &index,
+        "--pdf",
+        &pdf.display().to_string(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    match std::process::Command::new("pdftotext")
+        .arg("-raw")
+        .arg(&pdf)
+        .arg("-")
+        .output()
+    {
+        Ok(out) => {
+            let words = String::from_utf8_lossy(&out.stdout)
+                .split_whitespace()
+                .collect::<Vec<_>>()
+                .join(" ");
+            assert!(
+                words.contains("The reference corpus was the index"),
+                "{words}"
+            );
+            assert!(
+                words.contains(v["corpus"]["sha256"].as_str().unwrap()),
+                "{words}"
+            );
+        }
+        Err(_) => println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped"),
+    }
 }
 
 #[test]
