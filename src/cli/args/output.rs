@@ -7,7 +7,8 @@ use std::path::PathBuf;
 pub enum OutputFormat {
     /// A listing for people.
     Text,
-    /// The JSON record documented in docs/inspect-json.md.
+    /// The JSON record (schema: docs/compare-json.md for compare and search, docs/inspect-json.md
+    /// for inspect).
     Json,
 }
 
