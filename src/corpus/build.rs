@@ -68,10 +68,6 @@ pub const MAX_FILES_IN_FLIGHT: usize = 4;
 /// largest files a reader accepts take hundreds of MiB while they are read.
 pub const LARGE_FILE_BYTES: u64 = 8 << 20;
 
-/// A compressed MusicXML file (`.mxl`) at least this large on disk is read alone: XML
-/// compresses about twentyfold, so it expands past [`LARGE_FILE_BYTES`].
-pub const LARGE_MXL_BYTES: u64 = 512 << 10;
-
 /// Stack of the reading threads: the readers refuse nesting deeper than 256 levels before
 /// parsing, and this leaves them ample room.
 const READER_STACK_BYTES: usize = 16 << 20;
@@ -119,25 +115,43 @@ impl Drop for Pass<'_> {
     }
 }
 
-/// Whether a file is read alone ([`LARGE_FILE_BYTES`], [`LARGE_MXL_BYTES`]).
+/// Whether a file is read alone: [`LARGE_FILE_BYTES`] or more on disk, or a zip container
+/// (a compressed MusicXML file) whose entries declare that much once inflated, or whose sizes
+/// are not declared. XML compresses a hundredfold and more, so the size on disk of an `.mxl`
+/// says little. An archive that declares less than it inflates to is still held to the
+/// readers' limit on decompressed bytes, like any file in flight.
 fn is_large(path: &std::path::Path) -> bool {
+    use std::io::Read;
+    // Only regular files are opened here: opening a named pipe would block (the reader
+    // refuses anything else, without opening it).
     let Ok(meta) = std::fs::metadata(path) else {
         return false;
     };
-    let compressed = path
-        .extension()
-        .is_some_and(|e| e.eq_ignore_ascii_case("mxl"));
-    meta.len()
-        >= if compressed {
-            LARGE_MXL_BYTES
-        } else {
-            LARGE_FILE_BYTES
-        }
+    if !meta.is_file() {
+        return false;
+    }
+    if meta.len() >= LARGE_FILE_BYTES {
+        return true;
+    }
+    let Ok(mut file) = std::fs::File::open(path) else {
+        return false;
+    };
+    let mut magic = [0u8; 4];
+    if file.read_exact(&mut magic).is_err() || magic != *b"PK\x03\x04" {
+        return false;
+    }
+    match zip::ZipArchive::new(file) {
+        Ok(archive) => archive
+            .decompressed_size()
+            .is_none_or(|n| n >= u128::from(LARGE_FILE_BYTES)),
+        // Unreadable: the reader will say why, quickly.
+        Err(_) => false,
+    }
 }
 
 /// Reads every corpus file under `dir` (results in path order) and indexes the melodies;
 /// unreadable files are skipped and listed. At most [`MAX_FILES_IN_FLIGHT`] files are read at
-/// once, and a large file ([`LARGE_FILE_BYTES`]) alone, so that the memory of a build does not
+/// once, and a large file ([`LARGE_FILE_BYTES`], on disk or inflated) alone, so that the memory of a build does not
 /// grow with the number of cores. Reports the step `"reading files"` to `progress`, one unit
 /// per file.
 pub fn build_from_dir(
@@ -209,4 +223,53 @@ pub fn build_from_dir(
         files: files.len(),
         skipped,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_gate_never_holds_more_than_its_capacity() {
+        use std::sync::atomic::{AtomicUsize, Ordering};
+        let gate = Gate::new(3);
+        let inside = AtomicUsize::new(0);
+        let most = AtomicUsize::new(0);
+        std::thread::scope(|s| {
+            for k in 0..8 {
+                let (gate, inside, most) = (&gate, &inside, &most);
+                s.spawn(move || {
+                    let weight = if k % 4 == 0 { 3 } else { 1 };
+                    let _pass = gate.enter(weight);
+                    let now = inside.fetch_add(weight, Ordering::SeqCst) + weight;
+                    most.fetch_max(now, Ordering::SeqCst);
+                    std::thread::sleep(std::time::Duration::from_millis(5));
+                    inside.fetch_sub(weight, Ordering::SeqCst);
+                });
+            }
+        });
+        assert!(most.load(Ordering::SeqCst) <= 3);
+        assert_eq!(*gate.held.lock().unwrap(), 0);
+    }
+
+    #[test]
+    fn large_files_are_judged_by_what_they_inflate_to() {
+        use std::io::Write;
+        let dir = tempfile::tempdir().unwrap();
+        let small = dir.path().join("small.musicxml");
+        std::fs::write(&small, "<score-partwise/>").unwrap();
+        assert!(!is_large(&small));
+        // A few KiB on disk that declare 9 MiB once inflated.
+        let packed = dir.path().join("packed.mxl");
+        let mut zip = zip::ZipWriter::new(std::fs::File::create(&packed).unwrap());
+        let deflated = zip::write::SimpleFileOptions::default()
+            .compression_method(zip::CompressionMethod::Deflated);
+        zip.start_file("score.musicxml", deflated).unwrap();
+        zip.write_all(&vec![b' '; 9 << 20]).unwrap();
+        zip.finish().unwrap();
+        assert!(std::fs::metadata(&packed).unwrap().len() < 64 << 10);
+        assert!(is_large(&packed));
+        // Not a regular file: judged without being opened (a named pipe would block).
+        assert!(!is_large(dir.path()));
+    }
 }
