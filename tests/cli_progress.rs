@@ -178,3 +178,35 @@ fn names_only_paths_give_the_same_pdf_and_json_from_any_folder() {
     };
     assert_ne!(id(&read(&pdf_given)), id(&read(&pdf_abs)));
 }
+
+#[test]
+fn a_step_over_a_second_is_named_on_a_plain_line_by_default() {
+    // The demo pair with a shuffle null of 10,000 shuffles: several seconds of chance figures.
+    let demo = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo");
+    let args = [
+        "compare",
+        "pierside-lamps.musicxml",
+        "millstream-boats.musicxml",
+        "--null",
+        "shuffles",
+        "--shuffles",
+        "10000",
+        "--format",
+        "json",
+    ];
+    let shown = run_in(&demo, &args, None);
+    assert_eq!(shown.status.code(), Some(0), "{}", text(&shown.stderr));
+    let stderr = text(&shown.stderr);
+    assert!(
+        stderr.contains("collatio: progress: chance figures ("),
+        "{stderr}"
+    );
+    // At most one line every five seconds per step, each naming its step.
+    let lines: Vec<&str> = stderr
+        .lines()
+        .filter(|l| l.starts_with("collatio: progress: "))
+        .collect();
+    assert!(lines.iter().all(|l| l.ends_with(" s)")), "{stderr}");
+    let json: serde_json::Value = serde_json::from_slice(&shown.stdout).unwrap();
+    assert!(json["chance"].is_object(), "the JSON record is whole");
+}
