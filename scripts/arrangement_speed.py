@@ -13,8 +13,8 @@ Then runs, with RAYON_NUM_THREADS=1 and /usr/bin/time (wall, user CPU, peak RSS)
   collatio compare rec_a.wav rec_b.wav            (recording against recording)
   collatio compare score_a.mid rec_score_a.wav    (score against a recording of it)
   collatio compare score_a.mid rec_b.wav          (score against another recording)
-each with the default statistics (100 melodic shuffles, 99 harmonic shuffles). Issue 5's
-target: under 2 s each on one core.
+each with the default statistics (the fitted real-melody null for melodic E-values, 99 harmonic
+shuffles). Target: under 1 s each on one core.
 
 Usage: .venv/bin/python scripts/arrangement_speed.py [--runs 3]
 Needs: sox, fluidsynth, fluid-soundfont-gm; mido (scripts/requirements.txt); a release build.

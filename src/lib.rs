@@ -6,6 +6,7 @@
 //! | stage | module |
 //! |---|---|
 //! | units and the common timeline | [`units`], [`timeline`] (after [`theory`], which names notes) |
+//! | progress of long work, shown by the caller | [`progress`] (beside [`units`]; uses nothing) |
 //! | reading MIDI, MusicXML and recordings | [`audio`] (signal analysis), [`ingest`] |
 //! | sequences and chroma for comparison | [`features`] |
 //! | melodic and harmonic alignment, score following | [`align`] |
@@ -39,6 +40,7 @@ pub mod features;
 pub mod findings;
 pub mod ingest;
 pub mod pipeline;
+pub mod progress;
 pub mod report;
 pub mod stats;
 pub mod theory;

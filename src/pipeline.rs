@@ -34,6 +34,7 @@ use crate::compare::{compare, Relatedness, Side};
 use crate::corpus::{Corpus, IndexSource, MelodyEntry};
 use crate::features::Sequence;
 use crate::findings::{CompareSettings, Evidence, Finding, Findings, Hit, SearchFindings};
+use crate::progress::{NoProgress, Progress};
 use crate::stats::chance::{chance_model, ChanceParams, NullChoice};
 use crate::timeline::Piece;
 use rayon::prelude::*;
@@ -122,14 +123,31 @@ pub fn compare_works(
     settings: &CompareSettings,
     corpus: Option<CorpusRef<'_>>,
 ) -> Findings {
+    compare_works_with(a, b, settings, corpus, &NoProgress)
+}
+
+/// [`compare_works`], announcing each step to `progress` (the findings are the same).
+pub fn compare_works_with(
+    a: Piece,
+    b: Piece,
+    settings: &CompareSettings,
+    corpus: Option<CorpusRef<'_>>,
+    progress: &dyn Progress,
+) -> Findings {
     let (mut a, mut b) = (a, b);
+    progress.step("pairing melody lines", None);
     let pairings = choose_pairing(&mut a, &mut b, settings.melody_candidates, &settings.align);
     // The strongest of several pairings is reported: its chance figures are multiplied by the
     // number of pairings checked (Bonferroni), so that the choice does not flatter them.
     let tested = pairings.len().max(1) as f64;
+    if settings.sync.is_some() && a.provenance.format.is_audio() != b.provenance.format.is_audio() {
+        progress.step("following the score", None);
+    }
     let (a, b, synchronisation) = follow(a, b, settings.sync.as_ref());
+    progress.step("aligning the melodies", None);
     let comparison = compare(&a, &b, &settings.align);
     let (seq_a, seq_b) = (Sequence::from_piece(&a), Sequence::from_piece(&b));
+    progress.step("chance figures", None);
     let references = corpus.map(|c| {
         reference_melodies(
             c.index,
@@ -146,6 +164,7 @@ pub fn compare_works(
     );
     let (corpus_summary, commonness) = match corpus {
         Some(c) => {
+            progress.step("commonness in the corpus", None);
             let (summary, each) = crate::corpus::assess(
                 &comparison.passages,
                 &seq_a,
@@ -158,10 +177,14 @@ pub fn compare_works(
         }
         None => (None, vec![None; comparison.passages.len()]),
     };
-    let harmony = settings
-        .harmony
-        .as_ref()
-        .map(|p| harmonic_evidence(&a, &b, p, &comparison.passages));
+    let harmony = settings.harmony.as_ref().map(|p| {
+        progress.step("harmonic comparison", None);
+        harmonic_evidence(&a, &b, p, &comparison.passages)
+    });
+    progress.step(
+        "differences of the passages",
+        Some(comparison.passages.len() as u64),
+    );
     let confirmed = |rank: usize| {
         harmony
             .as_ref()
@@ -176,6 +199,8 @@ pub fn compare_works(
             if confirmed(passage.rank) {
                 evidence.push(Evidence::Harmony);
             }
+            let differences = differences(&a, &b, &passage);
+            progress.advance(1);
             Finding {
                 significance: chance
                     .as_ref()
@@ -183,11 +208,13 @@ pub fn compare_works(
                     .map(|s| s.for_tests(tested)),
                 commonness,
                 evidence,
-                differences: differences(&a, &b, &passage),
+                differences,
                 passage,
             }
         })
         .collect();
+    progress.step("recurring figures", None);
+    let recurrences = interval_recurrences(&seq_a, &seq_b);
     Findings {
         relatedness: comparison.relatedness,
         coverage: comparison.coverage,
@@ -201,7 +228,7 @@ pub fn compare_works(
         harmony,
         synchronisation,
         pairings,
-        recurrences: interval_recurrences(&seq_a, &seq_b),
+        recurrences,
         settings: settings.clone(),
         a,
         b,
@@ -216,6 +243,16 @@ pub fn compare_works(
 /// score, then the more melody-like line), its chance figures multiplied by the number of
 /// lines searched (Bonferroni); every hit names the query line it came from.
 pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -> SearchFindings {
+    search_with(query, corpus, settings, &NoProgress)
+}
+
+/// [`search`], announcing each step to `progress` (the findings are the same).
+pub fn search_with(
+    query: Piece,
+    corpus: CorpusRef<'_>,
+    settings: &SearchSettings,
+    progress: &dyn Progress,
+) -> SearchFindings {
     let lines: Vec<_> = query
         .candidates
         .iter()
@@ -223,7 +260,7 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
         .cloned()
         .collect();
     if lines.len() <= 1 {
-        return search_line(query, corpus, settings);
+        return search_line(query, corpus, settings, progress);
     }
     let tests = lines.len() as f64;
     let mut first: Option<SearchFindings> = None;
@@ -232,7 +269,7 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
         let mut q = query.clone();
         q.melody.clone_from(&line.melody);
         q.selection = line.selection.clone();
-        let found = search_line(q, corpus, settings);
+        let found = search_line(q, corpus, settings, progress);
         for mut hit in found.hits.iter().cloned() {
             for p in &mut hit.passages {
                 p.significance = p.significance.take().map(|s| s.for_tests(tests));
@@ -262,7 +299,7 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
             .then_with(|| x.path.cmp(&y.path))
     });
     hits.truncate(settings.top);
-    let mut found = first.unwrap_or_else(|| search_line(query.clone(), corpus, settings));
+    let mut found = first.unwrap_or_else(|| search_line(query.clone(), corpus, settings, progress));
     found.query = query;
     found.hits = hits;
     found.query_lines = lines.iter().map(|l| l.label.clone()).collect();
@@ -270,9 +307,15 @@ pub fn search(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) ->
 }
 
 /// [`search`] for the query's melody as it stands.
-fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -> SearchFindings {
+fn search_line(
+    query: Piece,
+    corpus: CorpusRef<'_>,
+    settings: &SearchSettings,
+    progress: &dyn Progress,
+) -> SearchFindings {
     let line = crate::compare::pairing::line_label(&query);
     let seq = Sequence::from_piece(&query);
+    progress.step(&format!("chance figures of {line}"), None);
     let references = reference_melodies(
         corpus.index,
         settings.chance.references,
@@ -293,7 +336,12 @@ fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -
         &chance_params,
         Some(&references),
     );
+    progress.step(&format!("candidates for {line}"), None);
     let pool = corpus.index.candidates(&seq, settings.candidates);
+    progress.step(
+        &format!("scanning candidates for {line}"),
+        Some(pool.len() as u64),
+    );
     let self_query = self_score(&seq, (0, seq.len().saturating_sub(1)), &settings.align);
     // Rank every candidate by relatedness from the scan alone; align in full, with passages
     // and differences, only the best until `top` share a passage.
@@ -304,6 +352,7 @@ fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -
             let other = Sequence::from_piece(&entry.to_piece());
             let best = best_score(&seq, &other, &settings.align);
             let own = self_score(&other, (0, other.len().saturating_sub(1)), &settings.align);
+            progress.advance(1);
             (best >= settings.align.min_score)
                 .then(|| (Relatedness::of(best, self_query, own), entry))
         })
@@ -315,6 +364,7 @@ fn search_line(query: Piece, corpus: CorpusRef<'_>, settings: &SearchSettings) -
             .then_with(|| x.1.path.cmp(&y.1.path))
     });
     let mut hits: Vec<Hit> = Vec::new();
+    progress.step(&format!("aligning the best matches for {line}"), None);
     for chunk in ranked.chunks(settings.top.max(1)) {
         if hits.len() >= settings.top {
             break;

@@ -75,8 +75,12 @@ impl Format {
 /// Where a piece came from.
 #[derive(Debug, Clone, Serialize)]
 pub struct Provenance {
-    /// Path as given by the user.
+    /// The path recorded in reports: as given by the user when read, or the file name only
+    /// after [`Provenance::record_paths`] with [`RecordPaths::Names`].
     pub path: String,
+    /// The path the file was read from (never recorded; used to keep outputs off the inputs).
+    #[serde(skip)]
+    pub opened: std::path::PathBuf,
     /// Size in bytes.
     pub bytes: u64,
     /// SHA-256 of the file's bytes, lower-case hex.
@@ -86,6 +90,38 @@ pub struct Provenance {
     /// Details of the container, e.g. `SMF format 1, 480 ticks per quarter` or the root file
     /// inside an `.mxl`.
     pub detail: String,
+}
+
+/// How an input's path is recorded in reports, the JSON record and the PDF exhibit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum RecordPaths {
+    /// The file name only: a report shows no folder of the machine it was made on, and the
+    /// same inputs give the same report from any folder (the SHA-256 identifies the file).
+    #[default]
+    Names,
+    /// The path as given.
+    AsGiven,
+}
+
+impl RecordPaths {
+    /// `path` as recorded: its last component (the path itself when it has none, as `..`), or
+    /// the path as given.
+    pub fn apply(self, path: &std::path::Path) -> String {
+        match self {
+            RecordPaths::Names => path.file_name().map_or_else(
+                || path.display().to_string(),
+                |n| n.to_string_lossy().into_owned(),
+            ),
+            RecordPaths::AsGiven => path.display().to_string(),
+        }
+    }
+}
+
+impl Provenance {
+    /// Records the path the file was read from as `how` asks.
+    pub fn record_paths(&mut self, how: RecordPaths) {
+        self.path = how.apply(&self.opened);
+    }
 }
 
 /// One note of the timeline.

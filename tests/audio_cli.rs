@@ -201,6 +201,26 @@ fn compare_a_recording_with_its_score() {
     assert!(text.contains("passages"), "{text}");
     let passages = record["passages"].as_array().unwrap();
     assert!(!passages.is_empty(), "the recording matches its own score");
+    // The transcription's settings are in the record: A4 = 440 Hz by default (ISO 16), the
+    // pitch range searched, the tracker, the estimates.
+    let t = &record["a"]["transcription"];
+    assert_eq!(t["a4_hz"], 440.0, "{t}");
+    assert!(t["fmin_hz"].as_f64().unwrap() < t["fmax_hz"].as_f64().unwrap());
+    assert!(t["melody_used"].is_string());
+    assert!(t["estimated_tuning_semitones"].as_f64().unwrap().abs() < 0.5);
+    assert!(record["b"]["transcription"].is_null());
+    // ... and another A4 is recorded as given.
+    let out = collatio(&[
+        "compare",
+        &fixture("renders/flute.flac"),
+        &fixture("renders/flute.mid"),
+        "--a4",
+        "442",
+        "--format",
+        "json",
+    ]);
+    let record: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(record["a"]["transcription"]["a4_hz"], 442.0);
 }
 
 /// A half-second clip of one note agrees with any score that sounds its pitch class

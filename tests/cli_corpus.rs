@@ -60,9 +60,10 @@ fn compare_with_a_corpus_reports_commonness() {
     assert_eq!(code, 0, "{stderr}");
     let v: Value = serde_json::from_str(&stdout).unwrap();
     assert_eq!(v["corpus"]["melodies"], 8);
-    // The index is identified: path as given, SHA-256 of its bytes, size and build settings.
+    // The index is identified: its file name (no folder of the machine), SHA-256 of its bytes,
+    // size and build settings.
     let bytes = std::fs::read(&index).unwrap();
-    assert_eq!(v["corpus"]["path"], index.as_str());
+    assert_eq!(v["corpus"]["path"], "tunes.idx");
     assert_eq!(v["corpus"]["bytes"], bytes.len() as u64);
     assert_eq!(v["corpus"]["sha256"].as_str().unwrap().len(), 64);
     assert!(v["corpus"]["figure_length"].as_u64().unwrap() > 0);
@@ -81,6 +82,40 @@ fn compare_with_a_corpus_reports_commonness() {
         text.contains(&v["corpus"]["sha256"].as_str().unwrap()[..16]),
         "{text}"
     );
+    // The exhibit identifies the corpus too (read back with poppler's pdftotext when present).
+    let pdf = tmp.path().join("exhibit.pdf");
+    let (code, _, stderr) = run(&[
+        "compare",
+        &a,
+        &b,
+        "--corpus",
+        &index,
+        "--pdf",
+        &pdf.display().to_string(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    match std::process::Command::new("pdftotext")
+        .arg("-raw")
+        .arg(&pdf)
+        .arg("-")
+        .output()
+    {
+        Ok(out) => {
+            let words = String::from_utf8_lossy(&out.stdout)
+                .split_whitespace()
+                .collect::<Vec<_>>()
+                .join(" ");
+            assert!(
+                words.contains("The reference corpus was the index"),
+                "{words}"
+            );
+            assert!(
+                words.contains(v["corpus"]["sha256"].as_str().unwrap()),
+                "{words}"
+            );
+        }
+        Err(_) => println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped"),
+    }
 }
 
 #[test]

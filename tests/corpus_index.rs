@@ -14,7 +14,12 @@ use collatio::ingest::{read_file, ReadOptions};
 
 fn index() -> CorpusIndex {
     let dir = common::fixture("tune_family");
-    let built = build_from_dir(&dir, &ReadOptions::default(), &|| {}).unwrap();
+    let built = build_from_dir(
+        &dir,
+        &ReadOptions::default(),
+        &collatio::progress::NoProgress,
+    )
+    .unwrap();
     assert_eq!(built.files, 8);
     assert!(built.skipped.is_empty(), "{:?}", built.skipped);
     built.index

@@ -28,7 +28,8 @@ fn pieces() -> (Piece, Piece) {
 /// (MIDI pitch, onset from the first note, duration) in quarter notes.
 type Notes = Vec<(i32, f64, f64)>;
 
-fn melody(path: &Path, part: &str) -> Notes {
+/// One part of a file as collatio reads it, that part selected as the melody.
+fn read_part(path: &Path, part: &str) -> Piece {
     let options = ReadOptions {
         choice: MelodyChoice {
             part: Some(part.into()),
@@ -36,7 +37,11 @@ fn melody(path: &Path, part: &str) -> Notes {
         },
         ..ReadOptions::default()
     };
-    let piece = read_file(path, &options).unwrap();
+    read_file(path, &options).unwrap()
+}
+
+fn melody(path: &Path, part: &str) -> Notes {
+    let piece = read_part(path, part);
     let first = piece.melody.first().map_or(0.0, |n| n.onset.0);
     piece
         .melody
@@ -148,14 +153,7 @@ fn exports_read_back_with_the_same_notes() {
 /// Chord symbols of one part of a file as collatio reads them: (root pitch class, bass pitch
 /// class, onset in quarter notes from the start of the part).
 fn chords(path: &Path, part: &str) -> Vec<(i32, i32, f64)> {
-    let options = ReadOptions {
-        choice: MelodyChoice {
-            part: Some(part.into()),
-            ..MelodyChoice::default()
-        },
-        ..ReadOptions::default()
-    };
-    let piece = read_file(path, &options).unwrap();
+    let piece = read_part(path, part);
     let pc = |step: collatio::theory::Step, alter: i32| {
         (step.natural_semitones() + alter).rem_euclid(12)
     };

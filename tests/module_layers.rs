@@ -14,7 +14,7 @@ use std::path::{Path, PathBuf};
 
 /// The stages in pipeline order; a module may use its own stage and earlier ones only.
 const LAYERS: &[&[&str]] = &[
-    &["units"],
+    &["units", "progress"],
     &["theory"],
     &["timeline"],
     &["limits", "output"],

@@ -1,6 +1,7 @@
 //! `collatio corpus build` and `collatio search`: a reference corpus of prior art.
 
 use super::args::{BuildArgs, OutputFormat, SearchArgs, VerifyArgs};
+use super::progress::Reporter;
 use anyhow::{Context, Result};
 use collatio::corpus::index::MAX_INDEX_BYTES;
 use collatio::corpus::mapped::version_of;
@@ -8,10 +9,11 @@ use collatio::corpus::{
     build_from_dir, corpus_files, Corpus, CorpusIndex, IndexBytes, IndexError, IndexSource,
     MappedIndex, VERSION,
 };
-use collatio::ingest::{read_file, ReadOptions};
-use collatio::pipeline::{search as search_corpus, CorpusRef, SearchSettings};
+use collatio::ingest::ReadOptions;
+use collatio::pipeline::{search_with, CorpusRef, SearchSettings};
+use collatio::progress::Progress;
 use collatio::report::output::{check_outputs, write_atomic};
-use std::io::IsTerminal;
+use collatio::timeline::RecordPaths;
 use std::io::Write;
 use std::path::Path;
 
@@ -47,8 +49,8 @@ impl LoadedIndex {
 
 /// Opens an index file with the file named in errors, and the identity of the file as read.
 /// A format-3 index is mapped and only its header and section table are checked here; the
-/// previous format is read whole and checked in full.
-pub fn load_index(path: &Path) -> Result<(LoadedIndex, IndexSource)> {
+/// previous format is read whole and checked in full. `record` says how its path is recorded.
+pub fn load_index(path: &Path, record: RecordPaths) -> Result<(LoadedIndex, IndexSource)> {
     use std::io::Read;
     let named = |e: String| anyhow::anyhow!("{}: {e}", path.display());
     collatio::ingest::regular_file(path).map_err(|e| named(e.to_string()))?;
@@ -77,7 +79,7 @@ pub fn load_index(path: &Path) -> Result<(LoadedIndex, IndexSource)> {
         let bytes =
             IndexBytes::map(&file).with_context(|| format!("{}: cannot read", path.display()))?;
         let index = MappedIndex::open(bytes).map_err(|e| named(e.to_string()))?;
-        let source = IndexSource::of_mapped(&path.display().to_string(), &index);
+        let source = IndexSource::of_mapped(&record.apply(path), &index);
         return Ok((LoadedIndex::Mapped(index), source));
     }
     let mut bytes = head;
@@ -88,14 +90,14 @@ pub fn load_index(path: &Path) -> Result<(LoadedIndex, IndexSource)> {
         return Err(too_big(bytes.len() as u64));
     }
     let index = CorpusIndex::from_bytes(&bytes).map_err(|e| named(e.to_string()))?;
-    let mut source = IndexSource::new(&path.display().to_string(), &bytes, &index);
+    let mut source = IndexSource::new(&record.apply(path), &bytes, &index);
     source.format_version = version;
     Ok((LoadedIndex::Whole(index), source))
 }
 
 /// Runs `corpus verify`: every section's checksum and every field of an index.
 pub fn verify(args: &VerifyArgs) -> Result<i32> {
-    let (index, source) = load_index(&args.index)?;
+    let (index, source) = load_index(&args.index, RecordPaths::AsGiven)?;
     if let LoadedIndex::Mapped(m) = &index {
         m.verify()
             .map_err(|e| anyhow::anyhow!("{}: {e}", args.index.display()))?;
@@ -130,26 +132,10 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
             args.dir.display()
         );
     }
-    let bar = if std::io::stderr().is_terminal() {
-        let bar = indicatif::ProgressBar::new(files.len() as u64);
-        bar.set_style(
-            indicatif::ProgressStyle::with_template("reading {pos}/{len} files {wide_bar} {eta}")
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-        );
-        Some(bar)
-    } else {
-        None
-    };
-    let tick = || {
-        if let Some(b) = &bar {
-            b.inc(1);
-        }
-    };
-    let built = build_from_dir(&args.dir, &options, &tick)
+    let reporter = Reporter::new(args.progress.no_progress);
+    let built = build_from_dir(&args.dir, &options, &reporter)
         .with_context(|| format!("{}: cannot read the folder", args.dir.display()))?;
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
+    reporter.step("writing the index", None);
     let bytes = built.index.to_bytes()?;
     if to_stdout {
         let mut stdout = std::io::stdout().lock();
@@ -158,6 +144,7 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
     } else {
         write_atomic(&args.output, &bytes)?;
     }
+    drop(reporter);
     say!(
         "collatio: indexed {} melodies from {} files into {} ({} bytes, {} figures)",
         built.index.melodies.len(),
@@ -189,13 +176,16 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
 
 /// Runs `search`.
 pub fn search(args: &SearchArgs) -> Result<i32> {
-    let (index, source) = load_index(&args.corpus)?;
+    let reporter = Reporter::new(args.progress.no_progress);
+    let record = args.paths.record();
+    reporter.step("reading the corpus index", None);
+    let (index, source) = load_index(&args.corpus, record)?;
     let options = ReadOptions {
         limits: args.limits.limits(),
         choice: args.select.clone().unwrap_or_default().0,
         ..ReadOptions::default()
     };
-    let query = read_file(&args.query, &options)?;
+    let query = super::read_recorded(&args.query, &options, record, &reporter)?;
     let settings = SearchSettings {
         melody_candidates: usize::from(args.melody_candidates),
         align: args.alignment.params(),
@@ -217,12 +207,14 @@ pub fn search(args: &SearchArgs) -> Result<i32> {
     };
     let empty = source.melodies == 0;
     if empty {
+        reporter.clear();
         say!(
             "collatio: warning: {}: the corpus index holds no melodies; nothing can match",
             args.corpus.display()
         );
     }
-    let found = search_corpus(query, corpus, &settings);
+    let found = search_with(query, corpus, &settings, &reporter);
+    drop(reporter);
     index.check(&args.corpus)?;
     let text = match args.format {
         OutputFormat::Json => {

@@ -14,13 +14,16 @@ macro_rules! say {
 
 mod args;
 mod corpus;
+mod progress;
 
 use anyhow::Result;
 use args::{Cli, Command, CompareArgs, InspectArgs, OutputFormat};
 use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
-use collatio::pipeline::{compare_works, CorpusRef};
+use collatio::pipeline::{compare_works_with, CorpusRef};
+use collatio::progress::Progress;
 use collatio::report::output::{check_outputs, check_replaceable, same_file, write_atomic};
+use progress::Reporter;
 use std::io::Write;
 
 /// Success.
@@ -95,23 +98,30 @@ fn compare(args: CompareArgs) -> Result<i32> {
         None
     };
     check_compare_outputs(&args)?;
-    let a = read_file(&args.a, &options_a)?;
-    let b = read_file(&args.b, &options_b)?;
+    let reporter = Reporter::new(args.progress.no_progress);
+    let record = args.paths.record();
+    let a = read_recorded(&args.a, &options_a, record, &reporter)?;
+    let b = read_recorded(&args.b, &options_b, record, &reporter)?;
     let index = match &args.statistics.corpus {
-        Some(path) => Some(corpus::load_index(path)?),
+        Some(path) => {
+            reporter.step("reading the corpus index", None);
+            Some(corpus::load_index(path, record)?)
+        }
         None => None,
     };
     let corpus = index.as_ref().map(|(index, source)| CorpusRef {
         index: index.corpus(),
         source,
     });
-    let findings = compare_works(a, b, &settings, corpus);
+    let findings = compare_works_with(a, b, &settings, corpus, &reporter);
     if let (Some((index, _)), Some(path)) = (&index, &args.statistics.corpus) {
         index.check(path)?;
     }
     let json_to_stdout = args.exhibit.json_to_stdout();
     if let Some((options, outputs)) = exhibit.as_ref().filter(|(_, o)| o.any()) {
+        reporter.step("writing the exhibit", None);
         let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;
+        reporter.clear();
         for path in &written.files {
             say!("collatio: wrote {}", path.display());
         }
@@ -124,8 +134,10 @@ fn compare(args: CompareArgs) -> Result<i32> {
     }
     if let Some((options, _)) = exhibit.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
         // The PDF in place of the listing.
+        reporter.step("rendering the exhibit", None);
         let prepared = collatio::report::exhibit::Exhibit::new(&findings, options)?;
         let (bytes, _) = collatio::report::pdf::render(&prepared)?;
+        reporter.clear();
         let warned = warn_pieces(&args, &findings);
         write_stdout_bytes(&bytes)?;
         return Ok(if warned { EXIT_PARTIAL } else { EXIT_OK });
@@ -139,9 +151,24 @@ fn compare(args: CompareArgs) -> Result<i32> {
             json
         }
     };
+    reporter.clear();
     let warned = warn_pieces(&args, &findings);
     write_stdout(&text)?;
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
+}
+
+/// Reads a file, shown as a step of `progress`, with its path recorded as `record` asks.
+fn read_recorded(
+    path: &std::path::Path,
+    options: &ReadOptions,
+    record: collatio::timeline::RecordPaths,
+    progress: &dyn Progress,
+) -> Result<collatio::timeline::Piece> {
+    let name = collatio::timeline::RecordPaths::Names.apply(path);
+    progress.step(&format!("reading {name}"), None);
+    let mut piece = read_file(path, options)?;
+    piece.provenance.record_paths(record);
+    Ok(piece)
 }
 
 /// Prints the warnings of both works (summarised); whether there were any.
@@ -231,7 +258,9 @@ fn inspect(args: InspectArgs) -> Result<i32> {
         }
         check_replaceable(target)?;
     }
-    let piece = read_file(&args.file, &options)?;
+    let reporter = Reporter::new(args.progress.no_progress);
+    let piece = read_recorded(&args.file, &options, args.paths.record(), &reporter)?;
+    drop(reporter);
     if midi_to_stdout {
         // The MIDI file in place of the listing.
         let bytes = collatio::report::export::melody_to_smf(&piece)?;

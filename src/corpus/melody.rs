@@ -147,6 +147,7 @@ impl MelodyEntry {
         Piece {
             provenance: Provenance {
                 path: self.path.clone(),
+                opened: self.path.clone().into(),
                 bytes: 0,
                 sha256: self.sha256.clone(),
                 format: Format::IndexedMelody,

@@ -228,6 +228,7 @@ fn complete(
 ) -> Result<Piece, Problem> {
     let provenance = Provenance {
         path: path.display().to_string(),
+        opened: path.to_path_buf(),
         bytes,
         sha256,
         format,
@@ -270,6 +271,7 @@ fn read_inner(path: &Path, bytes: &[u8], options: &ReadOptions) -> Result<Piece,
     }
     let provenance = Provenance {
         path: path.display().to_string(),
+        opened: path.to_path_buf(),
         bytes: bytes.len() as u64,
         sha256: sha256_hex(bytes),
         format,

@@ -2,7 +2,7 @@
 
 use super::analysis::AlignmentArgs;
 use super::input::{LimitArgs, SelectionSpec};
-use super::output::OutputFormat;
+use super::output::{OutputFormat, PathArgs, ProgressArgs};
 use clap::{Args, Subcommand};
 use std::path::PathBuf;
 
@@ -38,6 +38,8 @@ pub struct BuildArgs {
     pub output: PathBuf,
     #[command(flatten)]
     pub limits: LimitArgs,
+    #[command(flatten)]
+    pub progress: ProgressArgs,
 }
 
 /// `search`.
@@ -84,4 +86,8 @@ pub struct SearchArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = OutputFormat::Text, help_heading = "OUTPUT")]
     pub format: OutputFormat,
+    #[command(flatten)]
+    pub paths: PathArgs,
+    #[command(flatten)]
+    pub progress: ProgressArgs,
 }

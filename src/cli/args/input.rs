@@ -92,6 +92,12 @@ pub struct InspectArgs {
     /// writes it to standard output in place of the listing.
     #[arg(long, value_name = "FILE.mid", help_heading = "OUTPUT")]
     pub export_midi: Option<PathBuf>,
+
+    #[command(flatten)]
+    pub paths: super::PathArgs,
+
+    #[command(flatten)]
+    pub progress: super::ProgressArgs,
 }
 
 /// A meter written as N/D, e.g. 3/4 or 6/8.

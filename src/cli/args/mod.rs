@@ -11,7 +11,7 @@ pub use analysis::{AlignmentArgs, HarmonyArgs, StatisticsArgs};
 pub use corpus::{BuildArgs, CorpusCommand, SearchArgs, VerifyArgs};
 pub use error::UsageError;
 pub use input::{AudioArgs, InspectArgs, LimitArgs, SelectionSpec};
-pub use output::{ExhibitArgs, OutputFormat};
+pub use output::{ExhibitArgs, OutputFormat, PathArgs, ProgressArgs};
 
 use clap::{Args, Parser, Subcommand};
 use collatio::findings::CompareSettings;
@@ -145,6 +145,12 @@ pub struct CompareArgs {
 
     #[command(flatten)]
     pub exhibit: ExhibitArgs,
+
+    #[command(flatten)]
+    pub paths: PathArgs,
+
+    #[command(flatten)]
+    pub progress: ProgressArgs,
 }
 
 impl CompareArgs {

@@ -7,7 +7,8 @@ use std::path::PathBuf;
 pub enum OutputFormat {
     /// A listing for people.
     Text,
-    /// The JSON record documented in docs/inspect-json.md.
+    /// The JSON record (schema: docs/compare-json.md for compare and search, docs/inspect-json.md
+    /// for inspect).
     Json,
 }
 
@@ -102,5 +103,46 @@ impl ExhibitArgs {
             export_dir: self.export.clone(),
         };
         Ok((options, outputs))
+    }
+}
+
+/// Progress shown on standard error during long work.
+#[derive(Debug, Args)]
+pub struct ProgressArgs {
+    /// Show no progress on standard error. Otherwise any step running over about a second is
+    /// shown: a bar or spinner on a terminal, else a plain line every few seconds naming the
+    /// step. Progress never changes standard output or the files written.
+    #[arg(long, help_heading = "OUTPUT")]
+    pub no_progress: bool,
+}
+
+/// How input paths are recorded in the listing, the JSON record and the PDF.
+#[derive(Debug, Args)]
+pub struct PathArgs {
+    /// Record input files by name only (the default: an exhibit then does not show the
+    /// folders of the machine it was made on, and the same inputs give the same bytes from
+    /// any folder; the SHA-256 identifies each file), or by the path as given on the command
+    /// line.
+    #[arg(long, value_enum, default_value_t = RecordPathsArg::Names, value_name = "HOW",
+          help_heading = "OUTPUT")]
+    pub record_paths: RecordPathsArg,
+}
+
+/// Values of --record-paths.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum RecordPathsArg {
+    /// The file name only.
+    Names,
+    /// The path as given on the command line.
+    AsGiven,
+}
+
+impl PathArgs {
+    /// The library's setting.
+    pub fn record(&self) -> collatio::timeline::RecordPaths {
+        match self.record_paths {
+            RecordPathsArg::Names => collatio::timeline::RecordPaths::Names,
+            RecordPathsArg::AsGiven => collatio::timeline::RecordPaths::AsGiven,
+        }
     }
 }

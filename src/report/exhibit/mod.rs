@@ -96,7 +96,8 @@ pub fn write_exhibit(
 ) -> Result<Written, ExhibitError> {
     let exhibit = Exhibit::new(findings, options)?;
     let (a, b) = (&findings.a, &findings.b);
-    let inputs = [Path::new(&a.provenance.path), Path::new(&b.provenance.path)];
+    // The files as read, not the paths recorded (which may be file names only).
+    let inputs = [a.provenance.opened.as_path(), b.provenance.opened.as_path()];
     let export_files: Vec<(PathBuf, PathBuf)> = match &outputs.export_dir {
         Some(dir) => findings
             .passages

@@ -68,6 +68,12 @@ impl<'a> Exhibit<'a> {
         let mut h = Sha256::new();
         h.update(self.a.provenance.sha256.as_bytes());
         h.update(self.b.provenance.sha256.as_bytes());
+        // The paths as recorded in the document (file names only, or as given): the same
+        // identifier then always means the same bytes.
+        for piece in [self.a, self.b] {
+            h.update(piece.provenance.path.as_bytes());
+            h.update([0u8]);
+        }
         h.update(
             serde_json::to_string(&self.findings.settings.align)
                 .unwrap_or_default()

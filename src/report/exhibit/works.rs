@@ -165,7 +165,7 @@ pub fn transcription_text(t: &crate::timeline::Transcription) -> String {
             trim_number(t.max_seconds, 0)
         ),
         format!(
-            "melody tracker {} ({} asked)",
+            "melody tracker {} (asked: {})",
             t.melody_used, t.melody_requested
         ),
         match t.tempo_hint_bpm {
