@@ -15,6 +15,10 @@ pub struct IndexSource {
     /// ([`IndexSource::new`]); of the header's fields and the section table (which holds the
     /// SHA-256 of every section) for an index read in place ([`IndexSource::of_mapped`]).
     pub sha256: String,
+    /// What `sha256` covers: `file` (the whole file, as `sha256sum` computes it) or
+    /// `header and section table` (an index read in place: the table holds the SHA-256 of every
+    /// section, so this identifies the whole contents; `collatio corpus verify` checks them).
+    pub sha256_covers: &'static str,
     /// Size of the file in bytes.
     pub bytes: u64,
     /// Index format version.
@@ -34,6 +38,7 @@ impl IndexSource {
                 .iter()
                 .map(|b| format!("{b:02x}"))
                 .collect(),
+            sha256_covers: "file",
             bytes: file.len() as u64,
             format_version: VERSION,
             figure_length: index.ngram(),
@@ -51,6 +56,7 @@ impl IndexSource {
                 .iter()
                 .map(|b| format!("{b:02x}"))
                 .collect(),
+            sha256_covers: "header and section table",
             bytes: index.file_bytes(),
             format_version: VERSION,
             figure_length: index.ngram(),
@@ -61,10 +67,11 @@ impl IndexSource {
     /// One line for a text report: path, melodies and the start of the hash.
     pub fn line(&self) -> String {
         format!(
-            "{} ({} melodies; index SHA-256 {})",
+            "{} ({} melodies; index SHA-256 {} of its {})",
             self.path,
             self.melodies,
-            &self.sha256[..self.sha256.len().min(16)]
+            &self.sha256[..self.sha256.len().min(16)],
+            self.sha256_covers
         )
     }
 }

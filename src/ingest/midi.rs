@@ -20,9 +20,28 @@ use std::collections::{BTreeMap, VecDeque};
 /// General MIDI percussion channel, 0-based (channel 10 as users count).
 const PERCUSSION_CHANNEL: u8 = 9;
 
+/// Refuses a header whose division is in SMPTE time code with a frame rate other than the four
+/// the SMF 1.0 specification allows (the upper byte is −24, −25, −29 or −30): midly negates that
+/// byte, which overflows for −128.
+fn check_timecode_division(bytes: &[u8]) -> Result<(), Problem> {
+    if bytes.len() < 14 || &bytes[..4] != b"MThd" || bytes[12] & 0x80 == 0 {
+        return Ok(());
+    }
+    let fps = bytes[12] as i8;
+    if [-24, -25, -29, -30].contains(&fps) {
+        Ok(())
+    } else {
+        Err(Problem::Midi(format!(
+            "the header's time-code division names {fps} frames per second; SMF 1.0 allows only \
+             -24, -25, -29 and -30"
+        )))
+    }
+}
+
 /// Reads a Standard MIDI File (or an RMID RIFF wrapper around one).
 pub(crate) fn read(bytes: &[u8], limits: &Limits) -> Result<RawPiece, Problem> {
     let bytes = unwrap_rmid(bytes)?;
+    check_timecode_division(bytes)?;
     let smf = Smf::parse(bytes).map_err(|e| Problem::Midi(describe_midly_error(&e, bytes)))?;
     let mut raw = RawPiece {
         warnings: chunk_warnings(bytes),
@@ -628,5 +647,12 @@ mod tests {
             let _ = read(&file[..cut], &Limits::default());
         }
         assert!(read(b"MThd\0\0\0\x06\0\0", &Limits::default()).is_err());
+        // SMF 1.0: a time-code division's upper byte is -24, -25, -29 or -30; 0x80 (-128) is
+        // refused with a message, not passed to the parser (which would overflow negating it).
+        let header = b"MThd\0\0\0\x06\0\x01\0\x01\x80\x03MTrk\0\0\0\x04\0\xff\x2f\0";
+        let err = read(header, &Limits::default()).unwrap_err();
+        assert!(format!("{err:?}").contains("frames per second"), "{err:?}");
+        let ok = b"MThd\0\0\0\x06\0\x01\0\x01\xe7\x28MTrk\0\0\0\x04\0\xff\x2f\0";
+        assert!(check_timecode_division(ok).is_ok());
     }
 }

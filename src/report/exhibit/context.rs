@@ -125,7 +125,7 @@ fn corpus_sentence(c: &crate::corpus::CorpusSummary) -> String {
     let src = &c.source;
     format!(
         "The reference corpus was the index `{}` ({} melodies; figures of {} intervals; index \
-         format {}; {}; SHA-256 `{}`). Weighting the figures the two melodies share by their \
+         format {}; {}; SHA-256 of its {} `{}`). Weighting the figures the two melodies share by their \
          rarity in that corpus (after Müllensiefen & Pendzich 2009) gives a corpus-weighted \
          similarity of {} (0 = nothing shared, 1 = the same figures throughout).",
         src.path,
@@ -133,6 +133,7 @@ fn corpus_sentence(c: &crate::corpus::CorpusSummary) -> String {
         src.figure_length,
         src.format_version,
         crate::report::format::size_text(src.bytes),
+        src.sha256_covers,
         src.sha256,
         trim_number(c.weighted_similarity, 2)
     )
