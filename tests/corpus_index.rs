@@ -120,7 +120,8 @@ fn commonness_counts_exact_and_similar() {
     let index = index();
     let twinkle = sequence("twinkle_c_4-4.musicxml");
     let phrase = slice(&twinkle, 0, 6);
-    let (exact, similar) = index.commonness(&phrase, &AlignParams::default(), 0.8, 100);
+    let (exact, similar) =
+        collatio::corpus::assess::commonness(&index, &phrase, &AlignParams::default(), 0.8, 100);
     assert_eq!(exact, 3);
     assert!(similar >= 3, "similar {similar}");
 }
@@ -129,11 +130,19 @@ fn commonness_counts_exact_and_similar() {
 fn weighted_similarity_ranks_family_above_strangers() {
     let index = index();
     let twinkle = sequence("twinkle_c_4-4.musicxml");
-    let kin = index.weighted_similarity(&twinkle, &sequence("alphabet_song_g_4-4.musicxml"));
-    let stranger = index.weighted_similarity(&twinkle, &sequence("ode_to_joy_d.musicxml"));
+    let kin = collatio::corpus::assess::weighted_similarity(
+        &index,
+        &twinkle,
+        &sequence("alphabet_song_g_4-4.musicxml"),
+    );
+    let stranger = collatio::corpus::assess::weighted_similarity(
+        &index,
+        &twinkle,
+        &sequence("ode_to_joy_d.musicxml"),
+    );
     assert!(kin > 0.5, "{kin}");
     assert!(stranger < kin / 3.0, "{stranger} vs {kin}");
-    let same = index.weighted_similarity(&twinkle, &twinkle);
+    let same = collatio::corpus::assess::weighted_similarity(&index, &twinkle, &twinkle);
     assert!((same - 1.0).abs() < 1e-12);
 }
 

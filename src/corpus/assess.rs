@@ -2,8 +2,8 @@
 //! corpus melodies, and the corpus-weighted similarity of the two melodies (Müllensiefen &
 //! Pendzich 2009).
 
+use super::index::mapped::Corpus;
 use super::index::{figures, tokens};
-use super::mapped::Corpus;
 use super::source::IndexSource;
 use crate::align::{best_score, AlignParams};
 use crate::compare::Passage;
@@ -36,7 +36,7 @@ pub struct Commonness {
 /// How many melodies contain a figure (a passage of a melody): exactly (the same tokens in a
 /// row) and within the alignment's tolerance (a local alignment scoring at least
 /// `tolerance` times the figure's score against itself, among the `limit` best candidates).
-pub(crate) fn commonness<C: Corpus + ?Sized>(
+pub fn commonness<C: Corpus + ?Sized>(
     corpus: &C,
     figure: &Sequence,
     params: &AlignParams,
@@ -92,11 +92,7 @@ pub(crate) fn commonness<C: Corpus + ?Sized>(
 /// Corpus-weighted similarity of two melodies after Müllensiefen & Pendzich (2009):
 /// Tversky's ratio model over their figure sets, each figure weighted by its IDF in this
 /// corpus: σ = f(s∩t) / (f(s∩t) + α f(s∖t) + β f(t∖s)), with α = β = 0.5 (our choice).
-pub(crate) fn weighted_similarity<C: Corpus + ?Sized>(
-    corpus: &C,
-    a: &Sequence,
-    b: &Sequence,
-) -> f64 {
+pub fn weighted_similarity<C: Corpus + ?Sized>(corpus: &C, a: &Sequence, b: &Sequence) -> f64 {
     let set = |s: &Sequence| {
         let mut f = figures(&tokens(s), corpus.ngram());
         f.sort_unstable();
@@ -139,7 +135,7 @@ pub fn assess(
             let [lo, hi] = passage.a.note_range;
             let figure = slice(a, lo, hi);
             let (exact, similar) =
-                index.commonness(&figure, params, SIMILAR_SHARE, SIMILAR_CANDIDATES);
+                commonness(index, &figure, params, SIMILAR_SHARE, SIMILAR_CANDIDATES);
             Commonness {
                 corpus_melodies: index.melody_count(),
                 exact,
@@ -149,7 +145,7 @@ pub fn assess(
         .collect();
     let summary = CorpusSummary {
         source: source.clone(),
-        weighted_similarity: (index.weighted_similarity(a, b) * 1e4).round() / 1e4,
+        weighted_similarity: (weighted_similarity(index, a, b) * 1e4).round() / 1e4,
     };
     (summary, commonness)
 }

@@ -18,14 +18,14 @@
 pub mod assess;
 pub mod build;
 pub mod index;
-pub mod mapped;
 pub mod melody;
 pub mod source;
 pub mod validate;
 
 pub use assess::{assess, slice, Commonness, CorpusSummary, SIMILAR_CANDIDATES, SIMILAR_SHARE};
 pub use build::{build_from_dir, corpus_files, Built, CORPUS_EXTENSIONS};
+pub use index::mapped;
+pub use index::mapped::{Corpus, IndexBytes, MappedIndex};
 pub use index::{figures, tokens, CorpusIndex, IndexError, MAGIC, NGRAM, VERSION};
-pub use mapped::{Corpus, IndexBytes, MappedIndex};
 pub use melody::{MelodyEntry, StoredBar, StoredNote};
 pub use source::IndexSource;

@@ -1,7 +1,7 @@
 //! The identity of an index file as read, for the record of every output that consulted it.
 
+use super::index::mapped::{Corpus, MappedIndex};
 use super::index::VERSION;
-use super::mapped::{Corpus, MappedIndex};
 use serde::Serialize;
 use sha2::{Digest, Sha256};
 

@@ -21,13 +21,13 @@
 //! Opening checks the header, the table's checksum and the table's layout (sections inside
 //! the file, in order, without overlap, covering every melody). A section's checksum is
 //! verified the first time a query touches it (once per section per opening), and the fields a
-//! query reads are checked as they are decoded ([`super::validate`]); [`MappedIndex::verify`]
+//! query reads are checked as they are decoded ([`crate::corpus::validate`]); [`MappedIndex::verify`]
 //! checks every section and every field, as `collatio corpus verify` does. A problem met
 //! during a query is kept ([`MappedIndex::failure`]) and the query's findings must then be
 //! discarded.
 
-use super::index::{retrieval_figures, CorpusIndex, IndexError, MAGIC, NGRAM};
-use super::melody::MelodyEntry;
+use super::{retrieval_figures, CorpusIndex, IndexError, MAGIC, NGRAM};
+use crate::corpus::melody::MelodyEntry;
 use crate::features::Sequence;
 use bincode::Options;
 use sha2::{Digest, Sha256};
@@ -93,23 +93,6 @@ pub trait Corpus: Sync + std::fmt::Debug {
         ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
         ranked.truncate(limit);
         ranked
-    }
-
-    /// How many melodies contain a figure, exactly and within the alignment's tolerance
-    /// ([`super::assess`]).
-    fn commonness(
-        &self,
-        figure: &Sequence,
-        params: &crate::align::AlignParams,
-        tolerance: f64,
-        limit: usize,
-    ) -> (usize, usize) {
-        super::assess::commonness(self, figure, params, tolerance, limit)
-    }
-
-    /// Corpus-weighted similarity of two melodies in [0, 1] ([`super::assess`]).
-    fn weighted_similarity(&self, a: &Sequence, b: &Sequence) -> f64 {
-        super::assess::weighted_similarity(self, a, b)
     }
 }
 
@@ -440,7 +423,7 @@ impl MappedIndex {
             ));
         }
         for (j, m) in page.iter().enumerate() {
-            super::validate::melody_ok(m)
+            crate::corpus::validate::melody_ok(m)
                 .map_err(|e| format!("melody {}: {e}", s.first + j as u64))?;
         }
         Ok(page)

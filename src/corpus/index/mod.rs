@@ -7,10 +7,12 @@
 //! figures indexed, with the melodies that contain each. Rarity is inverse document frequency,
 //! IDF(τ) = ln(|C| / |{m ∈ C : τ ∈ m}|), as in Müllensiefen & Pendzich (2009).
 //!
-//! The file is written in format version 3 ([`super::mapped`]: sections read in place); the
+//! The file is written in format version 3 ([`mapped`]: sections read in place); the
 //! previous version 2 (16-byte magic `COLLATIO-CORPUS\0`, format version (u32 LE), payload
 //! length (u64 LE), SHA-256 of the payload (32 bytes), payload (bincode)) is still read whole.
 //! A foreign, truncated or corrupt file gets a clear error.
+
+pub mod mapped;
 
 use super::melody::MelodyEntry;
 use crate::features::{interval_size_class, Sequence};
@@ -28,8 +30,8 @@ pub const CONTOUR_NGRAM: usize = 5;
 const CONTOUR_TAG: u64 = 1 << 63;
 /// Index file magic.
 pub const MAGIC: &[u8; 16] = b"COLLATIO-CORPUS\0";
-/// Index format version written (and read in place: [`super::mapped`]).
-pub const VERSION: u32 = super::mapped::MAPPED_VERSION;
+/// Index format version written (and read in place: [`mapped`]).
+pub const VERSION: u32 = mapped::MAPPED_VERSION;
 /// The previous format version (one checksummed bincode payload), still read whole into
 /// memory.
 pub const LEGACY_VERSION: u32 = 2;
@@ -141,9 +143,9 @@ impl CorpusIndex {
         }
     }
 
-    /// The index file's bytes, in format [`VERSION`] ([`super::mapped`]).
+    /// The index file's bytes, in format [`VERSION`] ([`mapped`]).
     pub fn to_bytes(&self) -> Result<Vec<u8>, IndexError> {
-        super::mapped::encode(self)
+        mapped::encode(self)
     }
 
     /// The bytes of the previous format version ([`LEGACY_VERSION`]): magic, version, payload
@@ -162,14 +164,13 @@ impl CorpusIndex {
     }
 
     /// Reads an index file's bytes whole, checking every section and every field
-    /// ([`super::mapped::MappedIndex::verify`]); files of the previous format version are read
+    /// ([`mapped::MappedIndex::verify`]); files of the previous format version are read
     /// too.
     pub fn from_bytes(bytes: &[u8]) -> Result<CorpusIndex, IndexError> {
-        if super::mapped::version_of(bytes)? == LEGACY_VERSION {
+        if mapped::version_of(bytes)? == LEGACY_VERSION {
             return CorpusIndex::from_legacy_bytes(bytes);
         }
-        super::mapped::MappedIndex::open(super::mapped::IndexBytes::Owned(bytes.to_vec()))?
-            .to_index()
+        mapped::MappedIndex::open(mapped::IndexBytes::Owned(bytes.to_vec()))?.to_index()
     }
 
     /// Reads the previous format version, checking magic, version, length and checksum, then
