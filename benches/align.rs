@@ -1,6 +1,7 @@
 //! Alignment speed: the scoring kernel in cell updates per second (the full substitution
 //! function: pitch, interval, rhythm, metre, fragmentation and consolidation checks), and a
-//! 1,000-note against 1,000-note comparison with traceback of 10 passages.
+//! 1,000-note against 1,000-note comparison with traceback of 10 passages; and two
+//! 50,000-note works, searched from seeds (`collatio::align::seeded`).
 #![allow(clippy::unwrap_used, clippy::expect_used, missing_docs)]
 
 use collatio::align::{align, best_score, AlignParams};
@@ -87,6 +88,19 @@ fn bench_align(c: &mut Criterion) {
         bench.iter(|| align(&a, &b_shared, &ten).len())
     });
     group.finish();
+
+    // Long works: 50,000 notes against 50,000 with ten shared 30-note segments, above the
+    // full search's limit, so searched from seeds and aligned in bands.
+    let mut long = c.benchmark_group("long works");
+    long.sample_size(10);
+    let a = random_sequence(50_000, 3);
+    let b = with_shared_passages(&a, 50_000);
+    let found = align(&a, &b, &AlignParams::default());
+    assert!(found.len() >= 10, "{} passages", found.len());
+    long.bench_function("50000 vs 50000 notes, seeded search", |bench| {
+        bench.iter(|| align(&a, &b, &AlignParams::default()).len())
+    });
+    long.finish();
 }
 
 criterion_group!(benches, bench_align);

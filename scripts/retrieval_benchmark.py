@@ -570,19 +570,28 @@ def run_searches(collatio: str, index: pathlib.Path, queries: list[dict], label:
             error = error or f"no JSON: {proc.stderr.strip()[-500:]}"
         paths = [h.get("path", "").replace("\\", "/") for h in hits]
         rank = paths.index(q["original"]) + 1 if q["original"] in paths else None
-        own = hits[rank - 1].get("similarity") if rank else None
+        own = relatedness(hits[rank - 1]) if rank else None
         # Other melodies scoring exactly as high as the original (ties broken by collatio).
         ties = sum(1 for p, h in zip(paths, hits)
-                   if own is not None and p != q["original"] and h.get("similarity") == own)
+                   if own is not None and p != q["original"] and relatedness(h) == own)
         r = dict(q)
         r.update({"corpus": label, "seconds": secs, "cpu_seconds": cpu, "rank": rank,
                   "ties": ties, "ap": 1.0 / rank if rank else 0.0, "error": error,
-                  "hits": [{"path": p, "similarity": h.get("similarity")}
+                  "hits": [{"path": p, "similarity": relatedness(h)}
                            for p, h in zip(paths, hits)]})
         results.append(r)
         if error:
             print(f"  {q['query']}: {error}", file=sys.stderr, flush=True)
     return results
+
+
+def relatedness(hit: dict) -> float | None:
+    """The figure a hit is ranked by: its relatedness (JSON schema 2), or the similarity of
+    schema 1."""
+    value = hit.get("relatedness")
+    if isinstance(value, dict):
+        return value.get("value")
+    return hit.get("similarity")
 
 
 # ----------------------------------------------------------------------------------------

@@ -114,6 +114,8 @@ pub struct Findings {
     pub unmatched_a: usize,
     /// Notes of B's melody inside no passage.
     pub unmatched_b: usize,
+    /// How the passages were searched for: every note pair, or from seeds in long works.
+    pub search: crate::align::SearchMethod,
     /// Shared passages, strongest first.
     pub passages: Vec<Finding>,
     /// What the passages' chance figures rest on, when computed.

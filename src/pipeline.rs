@@ -27,7 +27,7 @@ use crate::align::AlignParams;
 use crate::align::{best_score, self_score};
 use crate::compare::differences::differences;
 use crate::compare::harmony::harmonic_evidence;
-use crate::compare::pairing::choose_pairing;
+use crate::compare::pairing::{choose_pairing, single_line_each, single_pairing};
 use crate::compare::recurrence::interval_recurrences;
 use crate::compare::sync::{follow_score, SyncSummary};
 use crate::compare::{compare, Relatedness, Side};
@@ -135,17 +135,22 @@ pub fn compare_works_with(
     progress: &dyn Progress,
 ) -> Findings {
     let (mut a, mut b) = (a, b);
-    progress.step("pairing melody lines", None);
-    let pairings = choose_pairing(&mut a, &mut b, settings.melody_candidates, &settings.align);
+    let single = single_line_each(&a, &b);
+    let choice = (!single).then(|| {
+        progress.step("pairing melody lines", None);
+        choose_pairing(&mut a, &mut b, settings.melody_candidates, &settings.align)
+    });
     // The strongest of several pairings is reported: its chance figures are multiplied by the
     // number of pairings checked (Bonferroni), so that the choice does not flatter them.
-    let tested = pairings.len().max(1) as f64;
+    let tested = choice.as_ref().map_or(1, Vec::len).max(1) as f64;
     if settings.sync.is_some() && a.provenance.format.is_audio() != b.provenance.format.is_audio() {
         progress.step("following the score", None);
     }
     let (a, b, synchronisation) = follow(a, b, settings.sync.as_ref());
     progress.step("aligning the melodies", None);
     let comparison = compare(&a, &b, &settings.align);
+    let pairings =
+        choice.unwrap_or_else(|| single_pairing(&a, &b, comparison.relatedness, &settings.align));
     let (seq_a, seq_b) = (Sequence::from_piece(&a), Sequence::from_piece(&b));
     progress.step("chance figures", None);
     let references = corpus.map(|c| {
@@ -222,6 +227,7 @@ pub fn compare_works_with(
         notes_b: comparison.notes_b,
         unmatched_a: comparison.unmatched_a,
         unmatched_b: comparison.unmatched_b,
+        search: comparison.search,
         passages,
         chance: chance.map(|m| m.summary),
         corpus: corpus_summary,

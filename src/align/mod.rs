@@ -27,17 +27,31 @@
 //! assert!(align(&empty, &empty, &AlignParams::default()).is_empty());
 //! ```
 
+mod band;
 pub mod harmony;
 mod lanes;
 mod scan;
 pub(crate) mod score;
+pub mod seeded;
 pub mod sync;
 mod trace;
 
 use crate::features::Sequence;
 use scan::{Blocked, Hit};
 use score::Scorer;
+pub use seeded::SearchMethod;
 use serde::Serialize;
+
+/// Cells (notes of A × notes of B) above which passages are searched for from seeds
+/// ([`seeded`]) rather than over the full matrix: about 2,000 notes against 2,000, where the
+/// full search with its declumping takes a few seconds on one laptop core. Below it, every
+/// note pair under every transposition is aligned.
+pub const FULL_SEARCH_MAX_CELLS: u64 = 4_000_000;
+
+/// Whether a pair of these lengths is searched from seeds.
+pub fn is_seeded(len_a: usize, len_b: usize) -> bool {
+    len_a as u64 * len_b as u64 > FULL_SEARCH_MAX_CELLS
+}
 
 /// Parameters of the alignment, in score points. Defaults favour the melody's pitches and
 /// intervals; rhythm and metre are secondary evidence. They are set so that an unrelated pair
@@ -181,6 +195,27 @@ pub fn align(a: &Sequence, b: &Sequence, params: &AlignParams) -> Vec<Alignment>
 /// over all 12 transpositions ([`best_score`], found by the same first scan; it may lie below
 /// `min_score`, or belong to an alignment too short to report).
 pub fn align_scored(a: &Sequence, b: &Sequence, params: &AlignParams) -> (Vec<Alignment>, i32) {
+    let (passages, best, _) = align_searched(a, b, params);
+    (passages, best)
+}
+
+/// [`align_scored`] with the record of how the passages were searched for: over the full
+/// matrix, or from seeds when the works are long ([`is_seeded`]).
+pub fn align_searched(
+    a: &Sequence,
+    b: &Sequence,
+    params: &AlignParams,
+) -> (Vec<Alignment>, i32, SearchMethod) {
+    if is_seeded(a.len(), b.len()) && params.max_passages > 0 {
+        return seeded::align_seeded(a, b, params);
+    }
+    let (passages, best) = align_full(a, b, params);
+    (passages, best, SearchMethod::Full)
+}
+
+/// The full search of [`align_scored`]: every cell under every transposition, whatever the
+/// length of the works.
+pub fn align_full(a: &Sequence, b: &Sequence, params: &AlignParams) -> (Vec<Alignment>, i32) {
     if a.is_empty() || b.is_empty() || params.max_passages == 0 {
         let best = if params.max_passages == 0 {
             best_score(a, b, params)
@@ -224,18 +259,43 @@ pub fn align_scored(a: &Sequence, b: &Sequence, params: &AlignParams) -> (Vec<Al
             break;
         }
         if !fresh {
-            hits[t] = (scan::scan(&scorer, params, t as u8, &blocked), true);
+            // Every stale transposition that could still beat the best fresh one is scanned
+            // again, together, so that the transposition-free part of each row is computed
+            // once for all of them.
+            let fresh_best = hits
+                .iter()
+                .filter(|h| h.1)
+                .filter_map(|h| h.0.map(|x| x.score))
+                .max()
+                .unwrap_or(0)
+                .max(params.min_score);
+            let stale: Vec<u8> = (0..12u8)
+                .filter(|&u| {
+                    let (bound, fresh) = hits[usize::from(u)];
+                    !fresh && bound.is_some_and(|h| h.score >= fresh_best)
+                })
+                .collect();
+            let again = scan::scan_many::<true>(&scorer, params, &stale, &blocked);
+            for (u, found) in stale.into_iter().zip(again) {
+                hits[usize::from(u)] = (found, true);
+            }
             continue;
         }
         let (steps, score) = trace::trace(&scorer, params, t as u8, &blocked, &hit);
         let a_range = span(&steps, true).unwrap_or((hit.start.0, hit.end.0));
         let b_range = span(&steps, false).unwrap_or((hit.start.1, hit.end.1));
-        blocked.rects.push((
+        let closed = (
             (hit.start.0.min(a_range.0), hit.end.0.max(a_range.1)),
             (hit.start.1.min(b_range.0), hit.end.1.max(b_range.1)),
-        ));
+        );
+        blocked.rects.push(closed);
+        // Closing cells only lowers scores, so a transposition's best hit whose path (inside
+        // the rectangle from its first to its last pair) misses the closed rectangle is still
+        // its best, with the same first pair; only the others are scanned again.
         for entry in &mut hits {
-            entry.1 = false;
+            if entry.0.is_some_and(|h| meets(&h, closed)) {
+                entry.1 = false;
+            }
         }
         let notes_a = a_range.1 - a_range.0 + 1;
         let notes_b = b_range.1 - b_range.0 + 1;
@@ -272,13 +332,23 @@ pub fn self_score(seq: &Sequence, range: (usize, usize), params: &AlignParams) -
 }
 
 /// The best local alignment score of two sequences over all 12 transpositions, without
-/// traceback (0 when nothing aligns): the statistic of the null model.
+/// traceback (0 when nothing aligns): the statistic of the null model. For long works
+/// ([`is_seeded`]) it is the best score of the seeded search, the statistic that search
+/// reports.
 pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
     if a.is_empty() || b.is_empty() {
         return 0;
     }
+    if is_seeded(a.len(), b.len()) {
+        return seeded::best_seeded(a, b, params);
+    }
     let scorer = Scorer::new(a, b, params);
     lanes::best_over_transpositions(&scorer, params)
+}
+
+/// Whether the rectangle of a hit (its first pair to its last) meets a closed rectangle.
+fn meets(hit: &Hit, ((a0, a1), (b0, b1)): ((usize, usize), (usize, usize))) -> bool {
+    hit.start.0 <= a1 && a0 <= hit.end.0 && hit.start.1 <= b1 && b0 <= hit.end.1
 }
 
 /// First and last note of one side touched by a path.

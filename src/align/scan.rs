@@ -155,7 +155,8 @@ pub(crate) fn scan_many<const TRACK: bool>(
         .collect()
 }
 
-/// Scans all cells under transposition `t`; see [`scan_many`].
+/// Scans all cells under transposition `t`; see [`scan_many`] (the tests' reference).
+#[cfg(test)]
 pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Blocked) -> Option<Hit> {
     scan_many::<true>(scorer, params, &[t], blocked)
         .pop()

@@ -33,7 +33,7 @@ pub mod pairing;
 pub mod recurrence;
 pub mod sync;
 
-use crate::align::{align_scored, self_score, AlignParams, Alignment, Step};
+use crate::align::{align_searched, self_score, AlignParams, Alignment, SearchMethod, Step};
 use crate::features::Sequence;
 use crate::theory::{describe_transposition, key_name};
 use crate::timeline::{Note, Piece};
@@ -87,6 +87,8 @@ pub struct Comparison {
     pub unmatched_a: usize,
     /// Notes of B's melody inside no passage.
     pub unmatched_b: usize,
+    /// How the passages were searched for: every note pair, or from seeds in long works.
+    pub search: SearchMethod,
 }
 
 /// How related two melodies are, with the scores it comes from.
@@ -239,7 +241,7 @@ pub struct Passage {
 pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
     let seq_a = Sequence::from_piece(a);
     let seq_b = Sequence::from_piece(b);
-    let (alignments, best) = align_scored(&seq_a, &seq_b, params);
+    let (alignments, best, search) = align_searched(&seq_a, &seq_b, params);
     let passages: Vec<Passage> = alignments
         .iter()
         .enumerate()
@@ -265,6 +267,7 @@ pub fn compare(a: &Piece, b: &Piece, params: &AlignParams) -> Comparison {
         unmatched_a: covered(seq_a.len(), alignments.iter().map(|x| x.a_range).collect()),
         unmatched_b: covered(seq_b.len(), alignments.iter().map(|x| x.b_range).collect()),
         passages,
+        search,
     }
 }
 

@@ -102,6 +102,31 @@ fn lines(piece: &Piece, limit: usize) -> Vec<MelodyCandidate> {
         .collect()
 }
 
+/// Whether neither work offers more than one line: then there is no pairing to choose, and
+/// [`single_pairing`] records the one pairing with the figures of the full comparison (which
+/// spares a second scan of two long works).
+pub fn single_line_each(a: &Piece, b: &Piece) -> bool {
+    a.candidates.len() <= 1 && b.candidates.len() <= 1
+}
+
+/// The record of the one pairing of two works of one line each ([`single_line_each`]), with
+/// the relatedness their comparison measured.
+pub fn single_pairing(
+    a: &Piece,
+    b: &Piece,
+    relatedness: Relatedness,
+    params: &AlignParams,
+) -> Vec<PairingCheck> {
+    let (line_a, line_b) = (&lines(a, 1)[0], &lines(b, 1)[0]);
+    vec![PairingCheck {
+        a: paired_line(a, 0, line_a),
+        b: paired_line(b, 0, line_b),
+        relatedness,
+        shares_passage: relatedness.best_score >= params.min_score,
+        chosen: true,
+    }]
+}
+
 fn paired_line(piece: &Piece, rank: usize, line: &MelodyCandidate) -> PairedLine {
     PairedLine {
         rank: rank + 1,
@@ -145,15 +170,10 @@ pub fn choose_pairing(
     let pairs: Vec<(usize, usize)> = (0..lines_a.len())
         .flat_map(|i| (0..lines_b.len()).map(move |j| (i, j)))
         .collect();
-    let scores: Vec<i32> = if pairs.len() == 1 {
-        // One pairing: the full comparison measures it; no scan needed here.
-        vec![best_score(&seq_a[0].0, &seq_b[0].0, params)]
-    } else {
-        pairs
-            .par_iter()
-            .map(|&(i, j)| best_score(&seq_a[i].0, &seq_b[j].0, params))
-            .collect()
-    };
+    let scores: Vec<i32> = pairs
+        .par_iter()
+        .map(|&(i, j)| best_score(&seq_a[i].0, &seq_b[j].0, params))
+        .collect();
     let mut checks: Vec<PairingCheck> = pairs
         .iter()
         .zip(&scores)

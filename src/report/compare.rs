@@ -58,6 +58,9 @@ pub struct CompareRecord {
     pub relatedness: crate::compare::Relatedness,
     /// Coverage of the shorter melody by the passages, in [0, 1].
     pub coverage: f64,
+    /// How the passages were searched for: `full` (every note pair under every
+    /// transposition) or `seeded` (long works; with its figures).
+    pub search: crate::align::SearchMethod,
     /// The null model behind the E-values (`null` when not computed).
     pub chance: Option<crate::stats::chance::ChanceSummary>,
     /// The reference corpus consulted (`null` when none was given).
@@ -112,6 +115,7 @@ pub fn record(findings: &Findings) -> CompareRecord {
         parameters: findings.settings.align.clone(),
         relatedness: result.relatedness,
         coverage: result.coverage,
+        search: result.search,
         chance: result.chance.clone(),
         corpus: result.corpus.clone(),
         passages: result.passages.clone(),
@@ -160,6 +164,9 @@ pub fn render_text(findings: &Findings) -> String {
         result.passages.len(),
         if result.passages.len() == 1 { "" } else { "s" }
     ));
+    if result.search != crate::align::SearchMethod::Full {
+        out.push_str(&format!("search: {}\n", result.search.describe()));
+    }
     if let Some(corpus) = &result.corpus {
         out.push_str(&format!(
             "corpus {}; corpus-weighted similarity {:.2}\n",

@@ -32,6 +32,9 @@ pub struct ExhibitContext {
     pub relatedness: String,
     /// Coverage of the shorter melody by passages.
     pub coverage: String,
+    /// How the passages were searched for, in a sentence, when not over the full matrix
+    /// (empty for the full search).
+    pub seeded_search: String,
     /// Passages.
     pub passages: Vec<PassageContext>,
     /// Parameters.
@@ -82,6 +85,10 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         b: work_context("B", &ex.label_b, ex.b, r.notes_b, r.unmatched_b, &ranges_b),
         relatedness: trim_number(r.relatedness.value, 2),
         coverage: trim_number(r.coverage, 2),
+        seeded_search: match r.search {
+            crate::align::SearchMethod::Full => String::new(),
+            seeded => seeded.describe(),
+        },
         passages: r
             .passages
             .iter()
