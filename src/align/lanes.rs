@@ -6,22 +6,35 @@
 //! The recurrence is the same as the scan's (Smith & Waterman 1981; Gotoh 1982; Mongeau &
 //! Sankoff 1990), so the best score is the same to the point; only path origins are not kept.
 
-use super::scan::{RowContext, NEG};
+use super::scan::{Contexts, RowContext, NEG};
 use super::score::Scorer;
 use super::AlignParams;
 
 /// Transpositions side by side.
 const LANES: usize = 12;
 
-type Lanes = [i32; LANES];
+pub(crate) type Lanes = [i32; LANES];
 
 /// The best local alignment score of the pair under any of the twelve transpositions (0 when
 /// no cell scores above zero).
 pub(crate) fn best_over_transpositions(scorer: &Scorer, params: &AlignParams) -> i32 {
+    best_per_transposition(scorer, params, &Contexts::per_row())
+        .into_iter()
+        .max()
+        .unwrap_or(0)
+}
+
+/// The best local alignment score of the pair under each transposition t (index t; 0 when no
+/// cell scores above zero).
+pub(crate) fn best_per_transposition(
+    scorer: &Scorer,
+    params: &AlignParams,
+    contexts: &Contexts,
+) -> Lanes {
     let n = scorer.a.len();
     let m = scorer.b.len();
     if n == 0 || m == 0 {
-        return 0;
+        return [0; LANES];
     }
     let width = m + 1;
     let open = params.gap_open;
@@ -32,13 +45,13 @@ pub(crate) fn best_over_transpositions(scorer: &Scorer, params: &AlignParams) ->
     let mut h: Vec<Lanes> = vec![[0; LANES]; 4 * width];
     let mut f: Vec<Lanes> = vec![[NEG; LANES]; width];
     let mut best: Lanes = [0; LANES];
-    let mut row = RowContext::new(m);
+    let mut scratch = RowContext::new(m);
     // Pitch term of A's note (and of the one and two before it) against each pitch class of B,
     // per transposition: pitch[back][pc][lane].
     let mut pitch = [[[0i32; LANES]; 12]; 3];
     for i in 1..=n {
         let ai = i - 1;
-        row.fill(scorer, i);
+        let row = contexts.row(scorer, i, &mut scratch);
         for (back, table) in pitch.iter_mut().enumerate() {
             let Some(note) = ai.checked_sub(back) else {
                 continue;
@@ -100,5 +113,5 @@ pub(crate) fn best_over_transpositions(scorer: &Scorer, params: &AlignParams) ->
             h[cur + j] = value;
         }
     }
-    best.into_iter().max().unwrap_or(0)
+    best
 }

@@ -226,61 +226,65 @@ pub fn align_full(a: &Sequence, b: &Sequence, params: &AlignParams) -> (Vec<Alig
     }
     let scorer = Scorer::new(a, b, params);
     let mut blocked = Blocked::default();
-    // Best hit per transposition, and whether it was computed with the current blocks.
-    let all: Vec<u8> = (0..12).collect();
-    let mut hits: Vec<(Option<Hit>, bool)> =
-        scan::scan_many::<true>(&scorer, params, &all, &blocked)
-            .into_iter()
-            .map(|hit| (hit, true))
-            .collect();
-    let best = hits
+    // The best score under each transposition from the score-only kernel; paths are tracked
+    // only under the transpositions whose best reaches the reporting threshold.
+    let contexts = scan::Contexts::kept(&scorer);
+    let bounds = lanes::best_per_transposition(&scorer, params, &contexts);
+    let best = bounds.iter().copied().max().unwrap_or(0);
+    let worth: Vec<u8> = (0..12u8)
+        .filter(|&t| bounds[usize::from(t)] >= params.min_score)
+        .collect();
+    let mut leads: Vec<Lead> = bounds
         .iter()
-        .filter_map(|h| h.0.map(|hit| hit.score))
-        .max()
-        .unwrap_or(0);
+        .map(|&score| Lead {
+            score,
+            hit: None,
+            fresh: true,
+        })
+        .collect();
+    for (t, hit) in worth.iter().zip(scan::scan_many::<true>(
+        &scorer, params, &worth, &blocked, &contexts,
+    )) {
+        leads[usize::from(*t)] = Lead::found(hit);
+    }
     let mut out = Vec::new();
     let mut guard = 0usize;
     while out.len() < params.max_passages && guard < 12 * (params.max_passages + 4) * 4 {
         guard += 1;
         // The transposition with the highest (possibly stale) bound; lower t wins ties.
-        let Some(t) = (0..12usize)
-            .filter(|&t| hits[t].0.is_some())
-            .max_by(|&x, &y| {
-                let sx = hits[x].0.map_or(0, |h| h.score);
-                let sy = hits[y].0.map_or(0, |h| h.score);
-                sx.cmp(&sy).then(y.cmp(&x))
-            })
+        let Some(t) =
+            (0..12usize).max_by(|&x, &y| leads[x].score.cmp(&leads[y].score).then(y.cmp(&x)))
         else {
             break;
         };
-        let (hit, fresh) = hits[t];
-        let Some(hit) = hit else { break };
-        if hit.score < params.min_score {
+        let lead = leads[t];
+        if lead.score < params.min_score || lead.score <= 0 {
             break;
         }
-        if !fresh {
+        if !lead.fresh {
             // Every stale transposition that could still beat the best fresh one is scanned
             // again, together, so that the transposition-free part of each row is computed
             // once for all of them.
-            let fresh_best = hits
+            let fresh_best = leads
                 .iter()
-                .filter(|h| h.1)
-                .filter_map(|h| h.0.map(|x| x.score))
+                .filter(|l| l.fresh)
+                .map(|l| l.score)
                 .max()
                 .unwrap_or(0)
                 .max(params.min_score);
             let stale: Vec<u8> = (0..12u8)
                 .filter(|&u| {
-                    let (bound, fresh) = hits[usize::from(u)];
-                    !fresh && bound.is_some_and(|h| h.score >= fresh_best)
+                    let l = leads[usize::from(u)];
+                    !l.fresh && l.score >= fresh_best
                 })
                 .collect();
-            let again = scan::scan_many::<true>(&scorer, params, &stale, &blocked);
+            let again = scan::scan_many::<true>(&scorer, params, &stale, &blocked, &contexts);
             for (u, found) in stale.into_iter().zip(again) {
-                hits[usize::from(u)] = (found, true);
+                leads[usize::from(u)] = Lead::found(found);
             }
             continue;
         }
+        let Some(hit) = lead.hit else { break };
         let (steps, score) = trace::trace(&scorer, params, t as u8, &blocked, &hit);
         let a_range = span(&steps, true).unwrap_or((hit.start.0, hit.end.0));
         let b_range = span(&steps, false).unwrap_or((hit.start.1, hit.end.1));
@@ -292,9 +296,9 @@ pub fn align_full(a: &Sequence, b: &Sequence, params: &AlignParams) -> (Vec<Alig
         // Closing cells only lowers scores, so a transposition's best hit whose path (inside
         // the rectangle from its first to its last pair) misses the closed rectangle is still
         // its best, with the same first pair; only the others are scanned again.
-        for entry in &mut hits {
-            if entry.0.is_some_and(|h| meets(&h, closed)) {
-                entry.1 = false;
+        for lead in &mut leads {
+            if lead.hit.is_some_and(|h| meets(&h, closed)) {
+                lead.fresh = false;
             }
         }
         let notes_a = a_range.1 - a_range.0 + 1;
@@ -344,6 +348,29 @@ pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
     }
     let scorer = Scorer::new(a, b, params);
     lanes::best_over_transpositions(&scorer, params)
+}
+
+/// What the declumping loop knows of one transposition's best remaining alignment.
+#[derive(Debug, Clone, Copy)]
+struct Lead {
+    /// Its score: exact when fresh, an upper bound when stale; 0 when nothing scores.
+    score: i32,
+    /// The alignment's first and last pair; `None` when only the score is known (a score
+    /// below the reporting threshold, never reported, or nothing at all).
+    hit: Option<Hit>,
+    /// Whether it was computed with the current closed rectangles.
+    fresh: bool,
+}
+
+impl Lead {
+    /// The lead of a fresh scan.
+    fn found(hit: Option<Hit>) -> Lead {
+        Lead {
+            score: hit.map_or(0, |h| h.score),
+            hit,
+            fresh: true,
+        }
+    }
 }
 
 /// Whether the rectangle of a hit (its first pair to its last) meets a closed rectangle.

@@ -115,6 +115,7 @@ pub(crate) fn scan_many<const TRACK: bool>(
     params: &AlignParams,
     ts: &[u8],
     blocked: &Blocked,
+    contexts: &Contexts,
 ) -> Vec<Option<Hit>> {
     let n = scorer.a.len();
     let m = scorer.b.len();
@@ -124,13 +125,13 @@ pub(crate) fn scan_many<const TRACK: bool>(
     let width = m + 1;
     let mut lanes: Vec<Lane> = ts.iter().map(|&t| Lane::new(t, width)).collect();
     let mut mask: Vec<bool> = Vec::new();
-    let mut row = RowContext::new(m);
+    let mut scratch = RowContext::new(m);
     let pc_b = &scorer.b.pc;
     for i in 1..=n {
         let ai = i - 1;
         let masked = blocked.row_mask(ai, m, &mut mask);
         // Everything but the pitch terms, once per row for all transpositions.
-        row.fill(scorer, i);
+        let row = contexts.row(scorer, i, &mut scratch);
         for lane in &mut lanes {
             for pc in 0..12u8 {
                 let p = usize::from(pc);
@@ -143,9 +144,9 @@ pub(crate) fn scan_many<const TRACK: bool>(
                 }
             }
             if masked {
-                scan_row::<TRACK, true>(scorer, params, lane, i, &row, pc_b, &mask);
+                scan_row::<TRACK, true>(scorer, params, lane, i, row, pc_b, &mask);
             } else {
-                scan_row::<TRACK, false>(scorer, params, lane, i, &row, pc_b, &[]);
+                scan_row::<TRACK, false>(scorer, params, lane, i, row, pc_b, &[]);
             }
         }
     }
@@ -158,9 +159,60 @@ pub(crate) fn scan_many<const TRACK: bool>(
 /// Scans all cells under transposition `t`; see [`scan_many`] (the tests' reference).
 #[cfg(test)]
 pub(crate) fn scan(scorer: &Scorer, params: &AlignParams, t: u8, blocked: &Blocked) -> Option<Hit> {
-    scan_many::<true>(scorer, params, &[t], blocked)
+    scan_many::<true>(scorer, params, &[t], blocked, &Contexts::per_row())
         .pop()
         .flatten()
+}
+
+/// Most cells whose transposition-free terms a comparison keeps for all its scans (20 bytes
+/// a cell: 20 MiB).
+pub(crate) const CONTEXT_CACHE_CELLS: usize = 1 << 20;
+
+/// The transposition-free terms of the rows of a pair ([`RowContext`]): computed once for
+/// every row when a comparison scans the pair several times (the first scan, then a rescan
+/// after each passage) and they fit [`CONTEXT_CACHE_CELLS`], else filled row by row as each
+/// scan reaches it.
+pub(crate) struct Contexts {
+    rows: Option<Vec<RowContext>>,
+}
+
+impl Contexts {
+    /// Filled row by row, nothing kept.
+    pub fn per_row() -> Contexts {
+        Contexts { rows: None }
+    }
+
+    /// Every row computed now and kept, when they fit; else [`Contexts::per_row`].
+    pub fn kept(scorer: &Scorer) -> Contexts {
+        let (n, m) = (scorer.a.len(), scorer.b.len());
+        if n.saturating_mul(m) > CONTEXT_CACHE_CELLS {
+            return Contexts::per_row();
+        }
+        let rows = (1..=n)
+            .map(|i| {
+                let mut row = RowContext::new(m);
+                row.fill(scorer, i);
+                row
+            })
+            .collect();
+        Contexts { rows: Some(rows) }
+    }
+
+    /// The terms of A's note `i − 1` (rows count from 1), kept or filled into `scratch`.
+    pub fn row<'s>(
+        &'s self,
+        scorer: &Scorer,
+        i: usize,
+        scratch: &'s mut RowContext,
+    ) -> &'s RowContext {
+        match &self.rows {
+            Some(rows) => &rows[i - 1],
+            None => {
+                scratch.fill(scorer, i);
+                scratch
+            }
+        }
+    }
 }
 
 /// The transposition-free part of every score of one row of A against all of B: the pair
