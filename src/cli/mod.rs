@@ -121,11 +121,18 @@ fn compare(args: CompareArgs) -> Result<i32> {
         index.check(path)?;
     }
     let json_to_stdout = args.exhibit.json_to_stdout();
-    if let Some((options, outputs)) = exhibit.as_ref().filter(|(_, o)| o.any()) {
+    // Prepared once for the files, the PDF on standard output and the digest of the record.
+    let prepared = match &exhibit {
+        Some((options, _)) => Some(collatio::report::exhibit::Exhibit::new(&findings, options)?),
+        None => None,
+    };
+    // Files to write; the listing and the record printed then carry their digest.
+    let files = exhibit.as_ref().map(|(_, o)| o).filter(|o| o.any());
+    let marked = prepared.as_ref().filter(|_| files.is_some());
+    if let (Some(ex), Some(outputs)) = (marked, files) {
         reporter.step("writing the exhibit", None);
         let wait = lock_wait(&reporter);
-        let prepared = collatio::report::exhibit::Exhibit::new(&findings, options)?;
-        let written = collatio::report::exhibit::write_prepared(&prepared, outputs, &wait)?;
+        let written = collatio::report::exhibit::write_prepared(ex, outputs, &wait)?;
         reporter.clear();
         for path in &written.files {
             say!("collatio: wrote {}", path.display());
@@ -138,20 +145,27 @@ fn compare(args: CompareArgs) -> Result<i32> {
         }
         say_cleaned(&written.leftovers, &written.unlocked);
     }
-    if let Some((options, _)) = exhibit.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
+    if let Some(ex) = prepared.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
         // The PDF in place of the listing.
         reporter.step("rendering the exhibit", None);
-        let prepared = collatio::report::exhibit::Exhibit::new(&findings, options)?;
-        let (bytes, _) = collatio::report::pdf::render(&prepared)?;
+        let (bytes, _) = collatio::report::pdf::render(ex)?;
         reporter.clear();
         let warned = warn_pieces(&args, &findings);
         write_stdout_bytes(&bytes)?;
         return Ok(if warned { EXIT_PARTIAL } else { EXIT_OK });
     }
-    let text = match args.format {
-        OutputFormat::Text if !json_to_stdout => collatio::report::compare::render_text(&findings),
-        _ => {
-            let record = collatio::report::compare::record(&findings);
+    let text = match (args.format, marked) {
+        (OutputFormat::Text, Some(ex)) if !json_to_stdout => {
+            collatio::report::compare::render_text_marked(&findings, ex.digest())
+        }
+        (OutputFormat::Text, None) if !json_to_stdout => {
+            collatio::report::compare::render_text(&findings)
+        }
+        (_, marked) => {
+            let record = match marked {
+                Some(ex) => ex.record(),
+                None => collatio::report::compare::record(&findings),
+            };
             let mut json = serde_json::to_string_pretty(&record)?;
             json.push('\n');
             json

@@ -4,7 +4,8 @@
 //! In: the [`Findings`] of a comparison, [`ExhibitOptions`] (paper, labels, case label, date,
 //! common key) and [`Outputs`] (which files to write). Out: the files, written atomically
 //! under the lock of their folders ([`crate::report::output`]), and the list of paths written.
-//! No output may replace an input file.
+//! No output may replace an input file. Every file carries the document digest
+//! ([`Exhibit::digest`]): files of two runs are told apart by it.
 //!
 //! - [`options`]: options, outputs and errors; [`dates`]: the date printed.
 //! - [`prepared`]: the exhibit prepared once (labels, notation of every passage, digest).
@@ -147,7 +148,7 @@ pub fn write_prepared(
     let mut written = Written::default();
     let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
     if let Some(path) = &outputs.json {
-        let record = crate::report::compare::record(findings);
+        let record = exhibit.record();
         let mut json = serde_json::to_string_pretty(&record)?;
         json.push('\n');
         files.push((path.clone(), json.into_bytes()));
