@@ -12,7 +12,7 @@ use collatio::corpus::{
 use collatio::ingest::ReadOptions;
 use collatio::pipeline::{search_with, CorpusRef, SearchSettings};
 use collatio::progress::Progress;
-use collatio::report::output::{check_outputs, write_atomic};
+use collatio::report::output::{check_outputs, write_all_with};
 use collatio::timeline::RecordPaths;
 use std::io::Write;
 use std::path::Path;
@@ -137,12 +137,16 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
         .with_context(|| format!("{}: cannot read the folder", args.dir.display()))?;
     reporter.step("writing the index", None);
     let bytes = built.index.to_bytes()?;
+    let size = bytes.len();
     if to_stdout {
         let mut stdout = std::io::stdout().lock();
         stdout.write_all(&bytes)?;
         stdout.flush()?;
     } else {
-        write_atomic(&args.output, &bytes)?;
+        let files = [(args.output.clone(), bytes)];
+        let cleaned = write_all_with(&files, &super::lock_wait(&reporter))?;
+        reporter.clear();
+        super::say_cleaned(&cleaned, &[]);
     }
     drop(reporter);
     say!(
@@ -154,7 +158,7 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
         } else {
             args.output.display().to_string()
         },
-        bytes.len(),
+        size,
         built.index.postings.len()
     );
     if built.index.melodies.is_empty() {

@@ -22,9 +22,12 @@ use clap::Parser;
 use collatio::ingest::{read_file, IngestError, Problem, ReadOptions};
 use collatio::pipeline::{compare_works_with, CorpusRef};
 use collatio::progress::Progress;
-use collatio::report::output::{check_outputs, check_replaceable, same_file, write_atomic};
+use collatio::report::output::{
+    check_outputs, check_replaceable, same_file, write_all_with, LockWait,
+};
 use progress::Reporter;
 use std::io::Write;
+use std::time::Duration;
 
 /// Success.
 pub const EXIT_OK: i32 = 0;
@@ -118,9 +121,18 @@ fn compare(args: CompareArgs) -> Result<i32> {
         index.check(path)?;
     }
     let json_to_stdout = args.exhibit.json_to_stdout();
-    if let Some((options, outputs)) = exhibit.as_ref().filter(|(_, o)| o.any()) {
+    // Prepared once for the files, the PDF on standard output and the digest of the record.
+    let prepared = match &exhibit {
+        Some((options, _)) => Some(collatio::report::exhibit::Exhibit::new(&findings, options)?),
+        None => None,
+    };
+    // Files to write; the listing and the record printed then carry their digest.
+    let files = exhibit.as_ref().map(|(_, o)| o).filter(|o| o.any());
+    let marked = prepared.as_ref().filter(|_| files.is_some());
+    if let (Some(ex), Some(outputs)) = (marked, files) {
         reporter.step("writing the exhibit", None);
-        let written = collatio::report::exhibit::write_exhibit(&findings, options, outputs)?;
+        let wait = lock_wait(&reporter);
+        let written = collatio::report::exhibit::write_prepared(ex, outputs, &wait)?;
         reporter.clear();
         for path in &written.files {
             say!("collatio: wrote {}", path.display());
@@ -131,21 +143,29 @@ fn compare(args: CompareArgs) -> Result<i32> {
                 path.display()
             );
         }
+        say_cleaned(&written.leftovers, &written.unlocked);
     }
-    if let Some((options, _)) = exhibit.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
+    if let Some(ex) = prepared.as_ref().filter(|_| args.exhibit.pdf_to_stdout()) {
         // The PDF in place of the listing.
         reporter.step("rendering the exhibit", None);
-        let prepared = collatio::report::exhibit::Exhibit::new(&findings, options)?;
-        let (bytes, _) = collatio::report::pdf::render(&prepared)?;
+        let (bytes, _) = collatio::report::pdf::render(ex)?;
         reporter.clear();
         let warned = warn_pieces(&args, &findings);
         write_stdout_bytes(&bytes)?;
         return Ok(if warned { EXIT_PARTIAL } else { EXIT_OK });
     }
-    let text = match args.format {
-        OutputFormat::Text if !json_to_stdout => collatio::report::compare::render_text(&findings),
-        _ => {
-            let record = collatio::report::compare::record(&findings);
+    let text = match (args.format, marked) {
+        (OutputFormat::Text, Some(ex)) if !json_to_stdout => {
+            collatio::report::compare::render_text_marked(&findings, ex.digest())
+        }
+        (OutputFormat::Text, None) if !json_to_stdout => {
+            collatio::report::compare::render_text(&findings)
+        }
+        (_, marked) => {
+            let record = match marked {
+                Some(ex) => ex.record(),
+                None => collatio::report::compare::record(&findings),
+            };
             let mut json = serde_json::to_string_pretty(&record)?;
             json.push('\n');
             json
@@ -155,6 +175,39 @@ fn compare(args: CompareArgs) -> Result<i32> {
     let warned = warn_pieces(&args, &findings);
     write_stdout(&text)?;
     Ok(if warned { EXIT_PARTIAL } else { EXIT_OK })
+}
+
+/// How long to wait for another run writing into the same output folders, shown as a step of
+/// `progress`: `COLLATIO_LOCK_WAIT` seconds (0 to 86,400; 0 gives up at once), else
+/// [`collatio::report::output::DEFAULT_WAIT`].
+fn lock_wait(progress: &dyn Progress) -> LockWait<'_> {
+    let limit = std::env::var("COLLATIO_LOCK_WAIT")
+        .ok()
+        .and_then(|s| s.trim().parse::<f64>().ok())
+        .filter(|s| s.is_finite() && (0.0..=86_400.0).contains(s))
+        .map_or(
+            collatio::report::output::DEFAULT_WAIT,
+            Duration::from_secs_f64,
+        );
+    LockWait { limit, progress }
+}
+
+/// Names the temporary files of killed runs that a write removed, and the folders written
+/// without a lock.
+fn say_cleaned(leftovers: &[std::path::PathBuf], unlocked: &[std::path::PathBuf]) {
+    for path in leftovers {
+        say!(
+            "collatio: removed {} (a temporary file of an interrupted run)",
+            path.display()
+        );
+    }
+    for dir in unlocked {
+        say!(
+            "collatio: note: {} has no file locks; written without the lock that keeps other \
+             collatio runs out",
+            dir.display()
+        );
+    }
 }
 
 /// Reads a file, shown as a step of `progress`, with its path recorded as `record` asks.
@@ -220,12 +273,14 @@ fn check_compare_outputs(args: &CompareArgs) -> Result<()> {
     Ok(())
 }
 
-/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically (the target was
-/// checked before the input was read).
+/// Writes the melody of `piece` as a Standard MIDI File at `target`, atomically and under the
+/// lock of its folder (the target was checked before the input was read).
 fn export_midi(piece: &collatio::timeline::Piece, target: &std::path::Path) -> Result<()> {
     let bytes = collatio::report::export::melody_to_smf(piece)?;
-    write_atomic(target, &bytes)
+    let files = [(target.to_path_buf(), bytes)];
+    let cleaned = write_all_with(&files, &lock_wait(&collatio::progress::NoProgress))
         .map_err(|e| anyhow::anyhow!("cannot write {}: {e}", target.display()))?;
+    say_cleaned(&cleaned, &[]);
     Ok(())
 }
 

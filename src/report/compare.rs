@@ -48,6 +48,10 @@ pub struct CompareRecord {
     pub schema_version: u32,
     /// Tool identity.
     pub tool: super::inspect::ToolInfo,
+    /// The document digest that every file of the run carries (the PDF, this record, the
+    /// passage exports; see [`super::exhibit::Exhibit::digest`]); `null` in a record printed by
+    /// a run that wrote no file (no `--pdf`, `--json` or `--export` naming a file or folder).
+    pub document_digest: Option<String>,
     /// Work A.
     pub a: WorkRecord,
     /// Work B.
@@ -110,6 +114,7 @@ pub fn record(findings: &Findings) -> CompareRecord {
             name: "collatio",
             version: env!("CARGO_PKG_VERSION"),
         },
+        document_digest: None,
         a: work("A", a, result.notes_a, result.unmatched_a),
         b: work("B", b, result.notes_b, result.unmatched_b),
         parameters: findings.settings.align.clone(),
@@ -124,6 +129,16 @@ pub fn record(findings: &Findings) -> CompareRecord {
         pairings: result.pairings.clone(),
         cautions: super::cautions::SHORT.to_vec(),
     }
+}
+
+/// The human listing of a run that wrote exhibit files: [`render_text`], then the document
+/// digest that those files carry, so that a listing kept beside them is matched to them.
+pub fn render_text_marked(findings: &Findings, digest: &str) -> String {
+    let mut out = render_text(findings);
+    out.push_str(&format!(
+        "\nDocument digest: {digest}\n (carried by the PDF, the JSON record and the passage exports of this run)\n"
+    ));
+    out
 }
 
 fn bars(side: &PassageSide) -> String {

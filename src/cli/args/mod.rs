@@ -90,7 +90,13 @@ Exit codes:
   1  compared, but some input was read with warnings
   2  usage error (an option outside its range, a selection that matches nothing, or an
      output that would replace an input or something that is not a regular file)
-  3  input error (a file could not be read), or an output file could not be written"
+  3  input error (a file could not be read), or an output file could not be written (also
+     when another collatio run kept its output folder locked past the wait)
+
+Environment:
+  COLLATIO_LOCK_WAIT  seconds to wait for another run writing into the same output folders
+                      (default 60)
+  SOURCE_DATE_EPOCH   the date printed on the PDF when --date is not given"
     )]
     Compare(Box<CompareArgs>),
     /// Build a reference corpus index of prior art.

@@ -52,7 +52,7 @@ pub struct ExhibitContext {
     pub tempo_written: bool,
     /// The reference corpus consulted, in one sentence with its identity (empty when none).
     pub corpus: String,
-    /// Document digest: SHA-256 of the inputs and options (hex).
+    /// Document digest: SHA-256 of the inputs, settings, options and findings (hex).
     pub digest: String,
     /// What the chance figures rest on, in sentences (empty when they were not computed).
     pub chance: String,
@@ -113,7 +113,7 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
         any_audio: ex.a.bars.iter().chain(&ex.b.bars).any(|b| b.estimated),
         tempo_written: ex.a.transcription.is_none() && ex.b.transcription.is_none(),
         corpus: r.corpus.as_ref().map(corpus_sentence).unwrap_or_default(),
-        digest: ex.digest(),
+        digest: ex.digest().to_string(),
         chance: r.chance.as_ref().map(chance_words).unwrap_or_default(),
         chance_caution: r.chance.as_ref().map(chance_caution).unwrap_or_default(),
         harmony: harmony_context(r.harmony.as_ref()),

@@ -3,8 +3,9 @@
 //!
 //! In: the [`Findings`] of a comparison, [`ExhibitOptions`] (paper, labels, case label, date,
 //! common key) and [`Outputs`] (which files to write). Out: the files, written atomically
-//! ([`crate::report::output`]), and the list of paths written. No output may replace an input
-//! file.
+//! under the lock of their folders ([`crate::report::output`]), and the list of paths written.
+//! No output may replace an input file. Every file carries the document digest
+//! ([`Exhibit::digest`]): files of two runs are told apart by it.
 //!
 //! - [`options`]: options, outputs and errors; [`dates`]: the date printed.
 //! - [`prepared`]: the exhibit prepared once (labels, notation of every passage, digest).
@@ -40,7 +41,9 @@ pub use options::{default_label, ExhibitError, ExhibitOptions, Outputs};
 pub use prepared::Exhibit;
 
 use crate::findings::Findings;
-use crate::report::output::{check_outputs, write_all, OutputError};
+use crate::report::output::{
+    check_outputs, folder_of, write_locked, LockWait, OutputError, OutputLock,
+};
 use std::path::{Path, PathBuf};
 
 /// What [`write_exhibit`] wrote.
@@ -52,6 +55,10 @@ pub struct Written {
     pub pdf_pages: usize,
     /// Passage exports of an earlier run removed from the export folder.
     pub removed: Vec<PathBuf>,
+    /// Temporary files of killed runs removed from the output folders.
+    pub leftovers: Vec<PathBuf>,
+    /// Output folders written without a lock, their filesystem having none.
+    pub unlocked: Vec<PathBuf>,
 }
 
 /// Removes the passage exports (`passage-NN.musicxml`, `passage-NN.mid`, regular files only)
@@ -88,13 +95,31 @@ fn remove_stale_exports(dir: &Path, written: &[PathBuf]) -> Result<Vec<PathBuf>,
     Ok(removed)
 }
 
-/// Writes the requested outputs. The JSON is the record `compare --format json` prints.
+/// Writes the requested outputs, waiting at most [`crate::report::output::DEFAULT_WAIT`] for
+/// another run writing into the same folders. The JSON is the record `compare --format json`
+/// prints (with the same options).
 pub fn write_exhibit(
     findings: &Findings,
     options: &ExhibitOptions,
     outputs: &Outputs,
 ) -> Result<Written, ExhibitError> {
-    let exhibit = Exhibit::new(findings, options)?;
+    write_prepared(
+        &Exhibit::new(findings, options)?,
+        outputs,
+        &LockWait::default(),
+    )
+}
+
+/// Writes the requested outputs of a prepared exhibit. Every file is rendered first; then the
+/// folders are locked against other collatio runs (waiting as `wait` says), the files are put in
+/// place all together, and the export folder's passages of an earlier run are removed, all
+/// under the lock, so that two runs writing the same paths leave one run's files.
+pub fn write_prepared(
+    exhibit: &Exhibit<'_>,
+    outputs: &Outputs,
+    wait: &LockWait<'_>,
+) -> Result<Written, ExhibitError> {
+    let findings = exhibit.findings;
     let (a, b) = (&findings.a, &findings.b);
     // The files as read, not the paths recorded (which may be file names only).
     let inputs = [a.provenance.opened.as_path(), b.provenance.opened.as_path()];
@@ -123,7 +148,7 @@ pub fn write_exhibit(
     let mut written = Written::default();
     let mut files: Vec<(PathBuf, Vec<u8>)> = Vec::new();
     if let Some(path) = &outputs.json {
-        let record = crate::report::compare::record(findings);
+        let record = exhibit.record();
         let mut json = serde_json::to_string_pretty(&record)?;
         json.push('\n');
         files.push((path.clone(), json.into_bytes()));
@@ -134,28 +159,33 @@ pub fn write_exhibit(
         .zip(&findings.passages)
     {
         let p = &p.passage;
-        let xml = crate::report::export::musicxml(&exhibit, p, view);
+        let xml = crate::report::export::musicxml(exhibit, p, view);
         files.push((xml_path.clone(), xml.into_bytes()));
         files.push((
             mid_path.clone(),
-            crate::report::export::midi(&exhibit, p, view)?,
+            crate::report::export::midi(exhibit, p, view)?,
         ));
     }
     if let Some(path) = &outputs.pdf {
-        let (bytes, pages) = crate::report::pdf::render(&exhibit)?;
+        let (bytes, pages) = crate::report::pdf::render(exhibit)?;
         files.push((path.clone(), bytes));
         written.pdf_pages = pages;
     }
-    if let Some(dir) = &outputs.export_dir {
-        std::fs::create_dir_all(dir).map_err(|source| OutputError::Io {
-            path: dir.clone(),
-            source,
-        })?;
-    }
-    write_all(&files)?;
+    // The export folder is locked (and created) even when no passage is written into it: its
+    // earlier passages are removed under the lock.
+    let folders: Vec<PathBuf> = files
+        .iter()
+        .map(|(path, _)| folder_of(path))
+        .chain(outputs.export_dir.clone())
+        .collect();
+    let lock = OutputLock::acquire(&folders, wait)?;
+    write_locked(&lock, &files)?;
     written.files = files.into_iter().map(|(path, _)| path).collect();
     if let Some(dir) = &outputs.export_dir {
         written.removed = remove_stale_exports(dir, &written.files)?;
     }
+    written.leftovers = lock.leftovers().to_vec();
+    written.unlocked = lock.unlocked().to_vec();
+    drop(lock);
     Ok(written)
 }

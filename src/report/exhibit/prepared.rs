@@ -1,5 +1,6 @@
 //! An exhibit prepared once for every renderer: the findings, the labels of the two works,
-//! the common key and the notation of every passage, and the document digest.
+//! the common key and the notation of every passage, and the document digest that marks every
+//! file of the run (the PDF, the JSON record, each passage export).
 
 use super::options::{default_label, ExhibitError, ExhibitOptions};
 use crate::findings::Findings;
@@ -25,6 +26,8 @@ pub struct Exhibit<'a> {
     pub target_tonic: i32,
     /// The notation of each passage, in rank order.
     pub views: Vec<PassageView>,
+    /// The document digest, computed once ([`Exhibit::digest`]).
+    digest: String,
 }
 
 impl<'a> Exhibit<'a> {
@@ -50,7 +53,7 @@ impl<'a> Exhibit<'a> {
                 v
             })
             .collect();
-        Ok(Exhibit {
+        let mut exhibit = Exhibit {
             findings,
             a,
             b,
@@ -59,11 +62,29 @@ impl<'a> Exhibit<'a> {
             label_b,
             target_tonic,
             views,
-        })
+            digest: String::new(),
+        };
+        exhibit.digest = exhibit.compute_digest();
+        Ok(exhibit)
     }
 
-    /// A digest of everything the output depends on, lower-case hex (SHA-256).
-    pub fn digest(&self) -> String {
+    /// The document digest: a SHA-256 (lower-case hex) of everything the outputs depend on,
+    /// the findings included, so that files of two runs that differ in inputs, settings,
+    /// options or findings carry different digests. Every file of the run carries it.
+    pub fn digest(&self) -> &str {
+        &self.digest
+    }
+
+    /// The JSON record of the findings, marked with the document digest.
+    pub fn record(&self) -> crate::report::compare::CompareRecord {
+        let mut record = crate::report::compare::record(self.findings);
+        record.document_digest = Some(self.digest.clone());
+        record
+    }
+
+    /// Hashes the inputs' SHA-256 and recorded paths, every setting, the options of the
+    /// document, the tool version and the JSON record of the findings (unmarked).
+    fn compute_digest(&self) -> String {
         use sha2::{Digest, Sha256};
         let mut h = Sha256::new();
         h.update(self.a.provenance.sha256.as_bytes());
@@ -87,6 +108,7 @@ impl<'a> Exhibit<'a> {
             &self.label_b,
             o.date.as_deref().unwrap_or(""),
             &o.common_key,
+            if o.piano_roll { "piano roll" } else { "" },
             env!("CARGO_PKG_VERSION"),
         ] {
             h.update(part.as_bytes());
@@ -119,6 +141,11 @@ impl<'a> Exhibit<'a> {
             h.update(settings.unwrap_or_default().as_bytes());
             h.update([0u8]);
         }
+        // The findings themselves, as the JSON record states them (without the digest): any
+        // setting or reading option not named above that changes a result changes them.
+        h.update(
+            serde_json::to_vec(&crate::report::compare::record(self.findings)).unwrap_or_default(),
+        );
         h.finalize().iter().map(|b| format!("{b:02x}")).collect()
     }
 }

@@ -11,9 +11,15 @@ use crate::timeline::Piece;
 /// Ticks per quarter note of the passage exports.
 pub const MIDI_TPQ: u16 = 480;
 
+/// The text event (FF 01) of a passage export that carries the run's document digest.
+pub fn digest_text(digest: &str) -> String {
+    format!("collatio document digest {digest}")
+}
+
 /// The passage as a Standard MIDI File (format 1): a conductor track (A's tempo at the passage,
-/// A's time signature, the common key), then one track per work on channels 1 and 2 with
-/// lyrics and the passage's start and end as markers; velocity 96 in the passage, 56 outside.
+/// A's time signature, the common key; text events with the caution and the document digest),
+/// then one track per work on channels 1 and 2 with lyrics and the passage's start and end as
+/// markers; velocity 96 in the passage, 56 outside.
 pub fn midi(
     ex: &Exhibit<'_>,
     passage: &Passage,
@@ -43,6 +49,8 @@ pub fn midi(
             0,
             SmfEvent::Text(crate::report::cautions::ONE_LINE.as_bytes().to_vec()),
         ),
+        // The run's document digest, also in the PDF and the JSON record.
+        (0, SmfEvent::Text(digest_text(ex.digest()).into_bytes())),
         (0, SmfEvent::Tempo(tempo)),
         (
             0,

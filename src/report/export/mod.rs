@@ -14,13 +14,14 @@
 //!   work as a `<words>` direction (`A bar 9`), because the two works' bar numbers differ. Notes
 //!   carry a `color` attribute: navy `#1A386B` matched, vermilion `#CC421A` differs from its
 //!   counterpart or has none, grey `#A0A0A8` outside the passage; the passage's first and last
-//!   notes carry `passage N begins` / `ends` directions. Lyrics, chord symbols (as words above
-//!   the staff) and grace notes are kept. The shorter work is padded with bars of rest so that
-//!   both parts have the same number of measures.
+//!   notes carry `passage N begins` / `ends` directions. The identification holds the inputs'
+//!   SHA-256, the caution and the run's document digest (`document-digest`). Lyrics, chord
+//!   symbols (as words above the staff) and grace notes are kept. The shorter work is padded
+//!   with bars of rest so that both parts have the same number of measures.
 //! - MIDI: format 1, 480 ticks per quarter; a conductor track (tempo of A at the passage, A's
-//!   time signature, the common key), then one track per work on channels 1 and 2 with lyrics
-//!   as FF 05 events and the passage's start and end as markers (FF 06). Velocity 96 for notes
-//!   in the passage, 56 for notes outside it.
+//!   time signature, the common key, the caution and the document digest as text events), then
+//!   one track per work on channels 1 and 2 with lyrics as FF 05 events and the passage's start
+//!   and end as markers (FF 06). Velocity 96 for notes in the passage, 56 for notes outside it.
 //!
 //! The MusicXML is written by this module rather than through the `musicxml` crate's typed
 //! model: that crate's writer (1.1) puts text and attribute values into the file without
@@ -30,7 +31,7 @@
 pub mod midi;
 pub mod musicxml;
 
-pub use midi::{melody_to_smf, midi, MIDI_TPQ};
+pub use midi::{digest_text, melody_to_smf, midi, MIDI_TPQ};
 pub use musicxml::musicxml;
 
 use super::notation::Mark;

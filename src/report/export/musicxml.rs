@@ -56,6 +56,9 @@ pub fn musicxml(ex: &Exhibit<'_>, passage: &Passage, view: &PassageView) -> Stri
     let fields = [
         ("source-a-sha256", ex.a.provenance.sha256.clone()),
         ("source-b-sha256", ex.b.provenance.sha256.clone()),
+        // The run's document digest, also in the PDF and the JSON record: files of two runs
+        // told apart.
+        ("document-digest", ex.digest().to_string()),
         (
             "colours",
             "navy #1A386B matched; vermilion #CC421A differs or has no counterpart; grey #A0A0A8 outside the passage".into(),

@@ -13,8 +13,8 @@
 //! use and limits of the document.
 //!
 //! Determinism: no clock is read; the document identifier in the trailer is derived from
-//! [`Exhibit::digest`]; the information dictionary carries a creation date only when a date
-//! was given (midnight UTC of that date).
+//! [`Exhibit::digest`], which the information dictionary holds whole as `DocumentDigest`; the
+//! dictionary carries a creation date only when a date was given (midnight UTC of that date).
 
 pub mod dotplot;
 pub mod layout;
@@ -349,6 +349,8 @@ fn save(
             env!("CARGO_PKG_VERSION")
         )),
     );
+    // The digest every file of the run carries, whole (the identifier below holds half of it).
+    info.set("DocumentDigest", lopdf::Object::string_literal(ex.digest()));
     if let Some(date) = &ex.options.date {
         let stamp = format!("D:{}000000Z", date.replace('-', ""));
         info.set("CreationDate", lopdf::Object::string_literal(stamp.clone()));
