@@ -346,6 +346,14 @@ pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
     if is_seeded(a.len(), b.len()) {
         return seeded::best_seeded(a, b, params);
     }
+    best_score_full(a, b, params)
+}
+
+/// [`best_score`] over every cell under every transposition, whatever the lengths.
+pub fn best_score_full(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
+    if a.is_empty() || b.is_empty() {
+        return 0;
+    }
     let scorer = Scorer::new(a, b, params);
     lanes::best_over_transpositions(&scorer, params)
 }

@@ -176,9 +176,24 @@ fn shared_runs<'x>(
 /// note (note indices).
 type Seed = (u8, i64, usize, usize, usize);
 
-/// The seeds of a pair made of `k` intervals, sorted, and the figures masked.
-fn seeds(sa: &Skeleton, sb: &Skeleton, a: &Sequence, b: &Sequence, k: usize) -> (Vec<Seed>, usize) {
+/// The seeds of a pair made of `k` intervals, sorted, and the figures masked; `None` when
+/// they would exceed [`SEED_PAIR_BUDGET`] and `k` may still grow.
+fn seeds(
+    sa: &Skeleton,
+    sb: &Skeleton,
+    a: &Sequence,
+    b: &Sequence,
+    k: usize,
+) -> Option<(Vec<Seed>, usize)> {
     let (fa, fb) = (sa.figures(k), sb.figures(k));
+    // Counted first, so that a seed length with too many pairs costs no allocation.
+    let pairs: u64 = shared_runs(&fa, &fb)
+        .map(|(ra, rb)| ra.len() as u64 * rb.len() as u64)
+        .filter(|&p| p <= MAX_SEED_PAIRS_PER_FIGURE)
+        .sum();
+    if pairs > SEED_PAIR_BUDGET && k < MAX_SEED {
+        return None;
+    }
     let mut out: Vec<Seed> = Vec::new();
     let mut masked = 0usize;
     for (ra, rb) in shared_runs(&fa, &fb) {
@@ -201,7 +216,7 @@ fn seeds(sa: &Skeleton, sb: &Skeleton, a: &Sequence, b: &Sequence, k: usize) -> 
         }
     }
     out.sort_unstable();
-    (out, masked)
+    Some((out, masked))
 }
 
 /// The bands to align: chains of two or more seeds, widened and merged.
@@ -283,15 +298,13 @@ fn plan(a: &Sequence, b: &Sequence) -> (Vec<Band>, SearchMethod) {
     let (sa, sb) = (Skeleton::of(a), Skeleton::of(b));
     let mut k = MIN_SEED;
     loop {
-        let (seeds, masked) = seeds(&sa, &sb, a, b, k);
-        let over = seeds.len() as u64 > SEED_PAIR_BUDGET;
-        let bands = if over {
-            Vec::new()
-        } else {
-            bands(&seeds, a.len())
+        let Some((seeds, masked)) = seeds(&sa, &sb, a, b, k) else {
+            k += 1;
+            continue;
         };
+        let bands = bands(&seeds, a.len());
         let cells: u64 = bands.iter().map(Band::cells).sum();
-        if (over || cells > BAND_CELL_BUDGET) && k < MAX_SEED {
+        if cells > BAND_CELL_BUDGET && k < MAX_SEED {
             k += 1;
             continue;
         }

@@ -8,11 +8,11 @@ use super::{AlignParams, Step};
 
 const NEG: i32 = i32::MIN / 4;
 
-/// Most cells the traceback matrix may hold (three `i32` per cell: 384 MB). A passage whose
+/// Most cells the traceback matrix may hold (three `i32` per cell: 96 MiB). A passage whose
 /// rectangle is larger is traced in a band around the straight line from its first to its last
 /// pair (banded alignment, as in Chao, Pearson & Miller 1992), wide enough to fill this budget;
 /// when the band does not reproduce the scan's score, the best path inside the band is taken.
-pub(crate) const TRACE_CELL_BUDGET: usize = 32 * 1024 * 1024;
+pub(crate) const TRACE_CELL_BUDGET: usize = 8 * 1024 * 1024;
 
 /// The cells of a rectangle the traceback keeps: all of them, or a diagonal band.
 struct Grid {

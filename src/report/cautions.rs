@@ -86,8 +86,18 @@ pub fn chance_words(chance: &ChanceSummary) -> String {
                 "E-values and p-values set each passage's score against {} pairs of the two \
                  melodies with their pitches shuffled, keeping every run of {} pitches and the \
                  rhythm (the k-let shuffle after Altschul & Erickson 1985; seed {}), fitted with \
-                 an extreme-value distribution (Karlin & Altschul 1990).",
-                s.shuffles, s.run_length, s.seed
+                 an extreme-value distribution (Karlin & Altschul 1990){}.",
+                s.shuffles,
+                s.run_length,
+                s.seed,
+                match s.window {
+                    Some(w) => format!(
+                        "; the works being long, windows of {w} notes of each shuffled pair \
+                         were aligned and the fit carried to the works' lengths (a sampled \
+                         null)"
+                    ),
+                    None => String::new(),
+                }
             ),
             None => String::new(),
         },

@@ -250,13 +250,17 @@ pub fn chance_model(
         note = Some("the general null holds for the default scoring only".into());
     }
     let model = NullModel::fit(a, b, align, &params.shuffles);
-    let withheld = model.summary.too_few_draws().then(|| {
-        format!(
+    let withheld = if model.summary.too_few_draws() {
+        Some(format!(
             "the shuffles gave only {} distinct orders of A and {} of B; no E-value rests on \
              fewer than {MIN_DISTINCT_DRAWS}",
             model.summary.distinct_a, model.summary.distinct_b
-        )
-    });
+        ))
+    } else if model.summary.window.is_some() && model.summary.gumbel.is_none() {
+        Some("the sampled shuffles' scores have no spread to fit".to_string())
+    } else {
+        None
+    };
     Some(ChanceModel {
         summary: ChanceSummary {
             null: NullKind::Shuffles,
