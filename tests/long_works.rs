@@ -23,41 +23,12 @@ use collatio::report::compare::{record, render_text};
 use collatio::stats::chance::GENERAL;
 use collatio::timeline::Piece;
 use rayon::prelude::*;
-use serde_json::Value;
 use std::collections::BTreeMap;
 
-/// A tune of the subset: its family (if any) and its events.
-struct Tune {
-    set: String,
-    family: Option<String>,
-    events: Vec<common::Event>,
-}
+use common::SubsetTune as Tune;
 
 fn tunes() -> (Vec<Tune>, u32) {
-    let text = std::fs::read_to_string(common::fixture("relatedness/subset.json")).unwrap();
-    let doc: Value = serde_json::from_str(&text).unwrap();
-    let divisions = doc["divisions"].as_u64().unwrap() as u32;
-    let tunes = doc["melodies"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|m| Tune {
-            set: m["set"].as_str().unwrap_or("background").to_string(),
-            family: m["family"].as_str().map(str::to_string),
-            events: m["events"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|e| {
-                    (
-                        e[0].as_i64().map(|p| p as i32),
-                        e[1].as_u64().unwrap() as u32,
-                    )
-                })
-                .collect(),
-        })
-        .collect();
-    (tunes, divisions)
+    common::subset()
 }
 
 /// Notes (not rests) of an event list.

@@ -23,7 +23,6 @@ use collatio::timeline::Piece;
 use rand::seq::SliceRandom;
 use rand::SeedableRng;
 use rayon::prelude::*;
-use serde_json::Value;
 use std::collections::BTreeMap;
 
 /// Lowest family AUC of the relatedness figure (the project's floor for this subset).
@@ -41,37 +40,14 @@ struct Melody {
 }
 
 fn melodies() -> Vec<Melody> {
-    let text = std::fs::read_to_string(common::fixture("relatedness/subset.json")).unwrap();
-    let doc: Value = serde_json::from_str(&text).unwrap();
-    let divisions = doc["divisions"].as_u64().unwrap() as u32;
-    doc["melodies"]
-        .as_array()
-        .unwrap()
-        .par_iter()
-        .map(|m| {
-            let meter = m["meter"].as_array().unwrap();
-            let events: Vec<common::Event> = m["events"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|e| {
-                    (
-                        e[0].as_i64().map(|p| p as i32),
-                        e[1].as_u64().unwrap() as u32,
-                    )
-                })
-                .collect();
-            Melody {
-                set: m["set"].as_str().unwrap_or("background").to_string(),
-                source: m["source"].as_str().unwrap().to_string(),
-                family: m["family"].as_str().map(str::to_string),
-                piece: common::melody_piece(
-                    &events,
-                    divisions,
-                    meter[0].as_u64().unwrap() as u32,
-                    meter[1].as_u64().unwrap() as u32,
-                ),
-            }
+    let (tunes, divisions) = common::subset();
+    tunes
+        .into_par_iter()
+        .map(|t| Melody {
+            piece: common::melody_piece(&t.events, divisions, t.meter.0, t.meter.1),
+            set: t.set,
+            source: t.source,
+            family: t.family,
         })
         .collect()
 }

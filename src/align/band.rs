@@ -7,7 +7,7 @@
 //! the band is the best local score of the paths that stay in it. Memory is four rows of the
 //! band's width; time is rows × width.
 
-use super::scan::{Blocked, Hit, NEG};
+use super::scan::{pack, unpack, Blocked, Hit, NEG};
 use super::score::Scorer;
 use super::AlignParams;
 
@@ -33,16 +33,6 @@ impl Band {
     pub fn cells(&self) -> u64 {
         (self.rows.1 + 1 - self.rows.0) as u64 * self.width() as u64
     }
-}
-
-#[inline(always)]
-fn pack(i: usize, j: usize) -> u64 {
-    ((i as u64) << 32) | j as u64
-}
-
-#[inline(always)]
-fn unpack(origin: u64) -> (usize, usize) {
-    ((origin >> 32) as usize, (origin & 0xffff_ffff) as usize)
 }
 
 /// The best local alignment inside `band` avoiding `blocked`, with the cell where its path
@@ -224,44 +214,7 @@ fn block_mask(blocked: &Blocked, ai: usize, band: &Band, mask: &mut [bool]) -> b
 mod tests {
     use super::*;
     use crate::align::scan;
-    use crate::features::{MetricLevel, SeqNote, Sequence};
-
-    /// A deterministic melody of `len` notes (a 64-bit linear congruential generator, Knuth's
-    /// MMIX constants) with steps, leaps, repeated notes and two rhythms, so that
-    /// fragmentation and consolidation take part.
-    fn melody(len: usize, seed: u64) -> Sequence {
-        let mut state = seed;
-        let mut pitch = 67i32;
-        let mut notes = Vec::with_capacity(len);
-        let mut previous: Option<f64> = None;
-        for i in 0..len {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            let step = ((state >> 33) % 9) as i32 - 4;
-            let next = if (state >> 45) % 5 == 0 {
-                pitch
-            } else {
-                (pitch + step).clamp(55, 84)
-            };
-            let ioi = if (state >> 40) % 3 == 0 { 0.5 } else { 1.0 };
-            notes.push(SeqNote {
-                pitch: next,
-                pitch_class: next.rem_euclid(12) as u8,
-                interval: (i > 0).then_some(next - pitch),
-                ioi,
-                log_ioi_ratio: previous.map(|p| (ioi / p).log2()),
-                metric: if i % 4 == 0 {
-                    MetricLevel::Downbeat
-                } else {
-                    MetricLevel::Weak
-                },
-            });
-            pitch = next;
-            previous = Some(ioi);
-        }
-        Sequence { notes }
-    }
+    use crate::align::testing::melody;
 
     // A band that covers every diagonal is the whole matrix: the banded scan must give the
     // full scan's best score, end and start, under every transposition (the definition of the

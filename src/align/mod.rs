@@ -34,6 +34,8 @@ mod scan;
 pub(crate) mod score;
 pub mod seeded;
 pub mod sync;
+#[cfg(test)]
+mod testing;
 mod trace;
 
 use crate::features::Sequence;

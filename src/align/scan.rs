@@ -57,12 +57,12 @@ impl Blocked {
 }
 
 #[inline(always)]
-fn pack(i: usize, j: usize) -> u64 {
+pub(crate) fn pack(i: usize, j: usize) -> u64 {
     ((i as u64) << 32) | j as u64
 }
 
 #[inline(always)]
-fn unpack(origin: u64) -> (usize, usize) {
+pub(crate) fn unpack(origin: u64) -> (usize, usize) {
     ((origin >> 32) as usize, (origin & 0xffff_ffff) as usize)
 }
 

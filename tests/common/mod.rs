@@ -8,6 +8,9 @@ use std::path::{Path, PathBuf};
 mod melody;
 #[allow(unused_imports)]
 pub use melody::{melody_piece, melody_xml, Event};
+mod subset;
+#[allow(unused_imports)]
+pub use subset::{subset, SubsetTune};
 
 /// Path of a committed fixture.
 pub fn fixture(name: &str) -> PathBuf {

@@ -32,7 +32,6 @@ use crate::features::Sequence;
 use bincode::Options;
 use sha2::{Digest, Sha256};
 use std::borrow::Cow;
-use std::collections::BTreeMap;
 use std::sync::OnceLock;
 
 /// This format's version.
@@ -81,15 +80,29 @@ pub trait Corpus: Sync + std::fmt::Debug {
     /// Candidate melodies for a query: IDF-weighted count of the shared figures of both kinds
     /// ([`retrieval_figures`]), best first, at most `limit` (ties by index order).
     fn candidates(&self, query: &Sequence, limit: usize) -> Vec<(u32, f64)> {
-        let mut weight: BTreeMap<u32, f64> = BTreeMap::new();
+        // One weight per melody in a dense array (the postings of a large corpus touch a
+        // good share of it), and the melodies touched, in the order first touched.
+        let mut weight: Vec<f64> = vec![0.0; self.melody_count()];
+        let mut touched: Vec<u32> = Vec::new();
         for f in retrieval_figures(query) {
             let ids = self.postings(f);
             let idf = idf_of(self.melody_count(), ids.len());
             for &m in ids.iter() {
-                *weight.entry(m).or_default() += idf;
+                let Some(w) = weight.get_mut(m as usize) else {
+                    continue;
+                };
+                if *w == 0.0 {
+                    touched.push(m);
+                }
+                *w += idf;
             }
         }
-        let mut ranked: Vec<(u32, f64)> = weight.into_iter().collect();
+        touched.sort_unstable();
+        touched.dedup();
+        let mut ranked: Vec<(u32, f64)> = touched
+            .into_iter()
+            .map(|m| (m, weight[m as usize]))
+            .collect();
         ranked.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
         ranked.truncate(limit);
         ranked
