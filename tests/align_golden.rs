@@ -75,6 +75,8 @@ fn params(config: &Value) -> AlignParams {
         min_score: 1,
         min_notes: 1,
         max_passages: 1,
+        // Exact, as parasail is, whatever the lengths.
+        full_search: true,
     }
 }
 

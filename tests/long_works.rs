@@ -209,6 +209,18 @@ fn outputs_say_when_the_search_was_seeded() {
     let text = render_text(&findings);
     assert!(text.contains("seeded search for long works"), "{text}");
     assert!(!findings.passages.is_empty());
+    let seeded_top = findings.passages[0].passage.score;
+
+    // `--full-search`: the same long works aligned over every note pair, and said so; the
+    // strongest passage is the seeded search's.
+    let (a, b) = long_pair(1, 2200);
+    let mut settings = CompareSettings::default();
+    settings.align.full_search = true;
+    let findings = compare_works(a, b, &settings, None);
+    let json = serde_json::to_value(record(&findings)).unwrap();
+    assert_eq!(json["search"]["kind"], "full");
+    assert_eq!(json["parameters"]["full_search"], true);
+    assert_eq!(findings.passages[0].passage.score, seeded_top);
 
     let (tunes, divisions) = tunes();
     let pairs = variant_pairs(&tunes);

@@ -99,6 +99,9 @@ pub struct AlignParams {
     pub min_notes: usize,
     /// Most passages reported per pair. Default 20.
     pub max_passages: usize,
+    /// Search every note pair under every transposition even in long works, where passages
+    /// are otherwise searched for from seeds ([`is_seeded`]). Default false.
+    pub full_search: bool,
 }
 
 impl Default for AlignParams {
@@ -121,11 +124,18 @@ impl Default for AlignParams {
             min_score: 60,
             min_notes: 5,
             max_passages: 20,
+            full_search: false,
         }
     }
 }
 
 impl AlignParams {
+    /// Whether a pair of these lengths is searched from seeds with these parameters: long
+    /// works ([`is_seeded`]) unless the full search is asked for.
+    pub fn seeds(&self, len_a: usize, len_b: usize) -> bool {
+        !self.full_search && is_seeded(len_a, len_b)
+    }
+
     /// The score of a note paired with an identical note (all four terms agreeing).
     pub fn identical_pair(&self) -> i32 {
         self.pitch_match + self.interval_match + self.rhythm_match + self.metric_match
@@ -208,7 +218,7 @@ pub fn align_searched(
     b: &Sequence,
     params: &AlignParams,
 ) -> (Vec<Alignment>, i32, SearchMethod) {
-    if is_seeded(a.len(), b.len()) && params.max_passages > 0 {
+    if params.seeds(a.len(), b.len()) && params.max_passages > 0 {
         return seeded::align_seeded(a, b, params);
     }
     let (passages, best) = align_full(a, b, params);
@@ -345,7 +355,7 @@ pub fn best_score(a: &Sequence, b: &Sequence, params: &AlignParams) -> i32 {
     if a.is_empty() || b.is_empty() {
         return 0;
     }
-    if is_seeded(a.len(), b.len()) {
+    if params.seeds(a.len(), b.len()) {
         return seeded::best_seeded(a, b, params);
     }
     best_score_full(a, b, params)

@@ -131,6 +131,7 @@ pub fn general_applies(params: &AlignParams) -> bool {
         min_score: d.min_score,
         min_notes: d.min_notes,
         max_passages: d.max_passages,
+        full_search: d.full_search,
         ..params.clone()
     } == d
 }

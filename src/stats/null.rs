@@ -20,7 +20,9 @@
 use super::gumbel::Gumbel;
 use super::shuffle::shuffle_keeping_runs;
 use super::significance::{NullKind, Significance};
-use crate::align::{best_score, is_seeded, AlignParams};
+#[cfg(test)]
+use crate::align::is_seeded;
+use crate::align::{best_score, AlignParams};
 use crate::features::Sequence;
 use rand::Rng;
 use rand::SeedableRng;
@@ -134,7 +136,7 @@ impl NullModel {
     /// Scores `params.shuffles` shuffled pairs of `a` and `b` and fits the Gumbel.
     pub fn fit(a: &Sequence, b: &Sequence, align: &AlignParams, params: &NullParams) -> NullModel {
         let score = |x: &Sequence, y: &Sequence| best_score(x, y, align);
-        NullModel::fit_sampled(a, b, params, is_seeded(a.len(), b.len()), &score)
+        NullModel::fit_sampled(a, b, params, align.seeds(a.len(), b.len()), &score)
     }
 
     /// [`NullModel::fit`], sampled in windows or not as asked, each shuffled pair (or window

@@ -212,6 +212,10 @@ pub struct AlignmentArgs {
     /// Most passages reported.
     #[arg(value_parser = super::ranges::count(1, 10_000), long, default_value_t = 20, help_heading = "ALIGNMENT")]
     pub max_passages: usize,
+    /// Align every note pair even in long works (above 4,000,000 note pairs), instead of
+    /// searching from seeds: exact, but minutes for works of tens of thousands of notes.
+    #[arg(long, help_heading = "ALIGNMENT")]
+    pub full_search: bool,
 }
 
 impl AlignmentArgs {
@@ -235,6 +239,7 @@ impl AlignmentArgs {
             min_score: self.min_score,
             min_notes: self.min_notes,
             max_passages: self.max_passages,
+            full_search: self.full_search,
         }
     }
 }

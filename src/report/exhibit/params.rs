@@ -25,7 +25,7 @@ pub fn param_rows(p: &AlignParams) -> Vec<ParamRow> {
         value,
         meaning: meaning.into(),
     };
-    vec![
+    let mut rows = vec![
         row(
             "pitch_match",
             p.pitch_match.to_string(),
@@ -111,5 +111,13 @@ pub fn param_rows(p: &AlignParams) -> Vec<ParamRow> {
             p.max_passages.to_string(),
             "most passages reported",
         ),
-    ]
+    ];
+    if p.full_search {
+        rows.push(row(
+            "full_search",
+            "yes".into(),
+            "every note pair aligned, also in long works",
+        ));
+    }
+    rows
 }
