@@ -9,7 +9,8 @@
 //!    it fixes the transposition (B's first seed note minus A's, modulo 12). `k` starts at
 //!    [`MIN_SEED`] intervals and grows until the seed pairs fit [`SEED_PAIR_BUDGET`]; a figure
 //!    so common that it alone would pair more than [`MAX_SEED_PAIRS_PER_FIGURE`] times is
-//!    left out (the masking of low-complexity words in database search).
+//!    thinned to the pairs near the works' proportional diagonal (database search masks such
+//!    low-complexity words; here they may be the whole of two works that follow each other).
 //! 2. **Two hits.** Seeds of one transposition on nearby diagonals (within
 //!    [`DIAGONAL_BUCKET`]) and no more than [`CHAIN_GAP`] notes apart are chained; a chain
 //!    of at least two seeds (overlapping seeds count: five or more agreeing intervals in a
@@ -39,8 +40,14 @@ pub const SEED_PAIR_BUDGET: u64 = 4_000_000;
 /// Most cells the bands of one seed length may hold; past it the length grows (about a
 /// second of banded alignment on one laptop core).
 pub const BAND_CELL_BUDGET: u64 = 60_000_000;
-/// A figure that alone would pair more often than this is not used as a seed.
+/// A figure that alone would pair more often than this is thinned: each of its occurrences
+/// in A is paired only with the [`THINNED_PARTNERS`] occurrences in B on either side of its
+/// proportional place, which keeps the diagonal of two works that follow each other (a work
+/// against itself, a trill against a trill) and drops the rest.
 pub const MAX_SEED_PAIRS_PER_FIGURE: u64 = 20_000;
+/// Occurrences of a thinned figure in B paired with each of its occurrences in A, on each
+/// side of its proportional place.
+pub const THINNED_PARTNERS: usize = 2;
 /// Width of the diagonal buckets that chain seeds, in notes.
 pub const DIAGONAL_BUCKET: i64 = 16;
 /// Most notes of A between chained seeds.
@@ -64,8 +71,9 @@ pub enum SearchMethod {
         seed_intervals: usize,
         /// Seed pairs found.
         seed_pairs: u64,
-        /// Figures left out as too common to seed.
-        masked_figures: usize,
+        /// Figures too common to pair every occurrence, paired only near the works'
+        /// proportional diagonal.
+        thinned_figures: usize,
         /// Bands aligned.
         bands: usize,
         /// Cells aligned in the bands.
@@ -87,14 +95,27 @@ impl SearchMethod {
                 bands,
                 cells,
                 full_cells,
+                thinned_figures,
                 ..
             } => format!(
-                "seeded search for long works: {bands} neighbourhoods where figures of \
+                "seeded search for long works: {bands} neighbourhood{} where figures of \
                  {seed_intervals} intervals recur in both works (two close together, or {} \
                  intervals in a row) were aligned in full inside diagonal bands, {:.2}% of \
-                 the cells of a full alignment; a passage without such figures is not found",
+                 the cells of a full alignment{}; a passage without such figures is not found \
+                 (--full-search aligns every note pair)",
+                if bands == 1 { "" } else { "s" },
                 seed_intervals + 1,
-                100.0 * cells as f64 / full_cells.max(1) as f64
+                100.0 * cells as f64 / full_cells.max(1) as f64,
+                match thinned_figures {
+                    0 => String::new(),
+                    1 => "; one figure too common to pair everywhere was paired only near \
+                          the works' proportional diagonal"
+                        .to_string(),
+                    n => format!(
+                        "; {n} figures too common to pair everywhere were paired only near \
+                         the works' proportional diagonal"
+                    ),
+                }
             ),
         }
     }
@@ -176,7 +197,7 @@ fn shared_runs<'x>(
 /// note (note indices).
 type Seed = (u8, i64, usize, usize, usize);
 
-/// The seeds of a pair made of `k` intervals, sorted, and the figures masked; `None` when
+/// The seeds of a pair made of `k` intervals, sorted, and the figures thinned; `None` when
 /// they would exceed [`SEED_PAIR_BUDGET`] and `k` may still grow.
 fn seeds(
     sa: &Skeleton,
@@ -188,23 +209,38 @@ fn seeds(
     let (fa, fb) = (sa.figures(k), sb.figures(k));
     // Counted first, so that a seed length with too many pairs costs no allocation.
     let pairs: u64 = shared_runs(&fa, &fb)
-        .map(|(ra, rb)| ra.len() as u64 * rb.len() as u64)
-        .filter(|&p| p <= MAX_SEED_PAIRS_PER_FIGURE)
+        .map(|(ra, rb)| {
+            let all = ra.len() as u64 * rb.len() as u64;
+            if all > MAX_SEED_PAIRS_PER_FIGURE {
+                ra.len() as u64 * 2 * THINNED_PARTNERS as u64
+            } else {
+                all
+            }
+        })
         .sum();
     if pairs > SEED_PAIR_BUDGET && k < MAX_SEED {
         return None;
     }
     let mut out: Vec<Seed> = Vec::new();
-    let mut masked = 0usize;
+    let mut thinned = 0usize;
+    // Proportional place of a skeleton position of A in B's skeleton.
+    let scale = sb.index.len() as f64 / sa.index.len().max(1) as f64;
     for (ra, rb) in shared_runs(&fa, &fb) {
-        if ra.len() as u64 * rb.len() as u64 > MAX_SEED_PAIRS_PER_FIGURE {
-            masked += 1;
-            continue;
-        }
+        let common = ra.len() as u64 * rb.len() as u64 > MAX_SEED_PAIRS_PER_FIGURE;
+        thinned += usize::from(common);
         for &(_, ra_pos) in ra {
             let i = sa.index[ra_pos as usize];
             let i_last = sa.index[ra_pos as usize + k];
-            for &(_, rb_pos) in rb {
+            // A figure too common to pair every occurrence is paired only with the
+            // occurrences of B nearest its proportional place (B's run is sorted by place).
+            let partners: &[Figure] = if common {
+                let target = (f64::from(ra_pos) * scale) as u32;
+                let at = rb.partition_point(|f| f.1 < target);
+                &rb[at.saturating_sub(THINNED_PARTNERS)..(at + THINNED_PARTNERS).min(rb.len())]
+            } else {
+                rb
+            };
+            for &(_, rb_pos) in partners {
                 let j = sb.index[rb_pos as usize];
                 let t = (b.notes[j].pitch_class + 24 - a.notes[i].pitch_class) % 12;
                 let d = j as i64 - i as i64;
@@ -216,7 +252,7 @@ fn seeds(
         }
     }
     out.sort_unstable();
-    Some((out, masked))
+    Some((out, thinned))
 }
 
 /// The bands to align: chains of two or more seeds, widened and merged.
@@ -298,7 +334,7 @@ fn plan(a: &Sequence, b: &Sequence) -> (Vec<Band>, SearchMethod) {
     let (sa, sb) = (Skeleton::of(a), Skeleton::of(b));
     let mut k = MIN_SEED;
     loop {
-        let Some((seeds, masked)) = seeds(&sa, &sb, a, b, k) else {
+        let Some((seeds, thinned)) = seeds(&sa, &sb, a, b, k) else {
             k += 1;
             continue;
         };
@@ -311,7 +347,7 @@ fn plan(a: &Sequence, b: &Sequence) -> (Vec<Band>, SearchMethod) {
         let method = SearchMethod::Seeded {
             seed_intervals: k,
             seed_pairs: seeds.len() as u64,
-            masked_figures: masked,
+            thinned_figures: thinned,
             bands: bands.len(),
             cells,
             full_cells: 12 * a.len() as u64 * b.len() as u64,
@@ -407,4 +443,51 @@ fn passages_in(scorer: &Scorer, params: &AlignParams, band: &Band) -> (Vec<Align
         }
     }
     (out, best)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::align::{is_seeded, self_score};
+    use crate::features::{MetricLevel, SeqNote};
+
+    /// A trill of `len` notes: two pitches a tone apart, alternating, one rhythm.
+    fn trill(len: usize) -> Sequence {
+        let notes = (0..len)
+            .map(|i| {
+                let pitch = 60 + 2 * (i % 2) as i32;
+                SeqNote {
+                    pitch,
+                    pitch_class: pitch.rem_euclid(12) as u8,
+                    interval: (i > 0).then_some(if i % 2 == 1 { 2 } else { -2 }),
+                    ioi: 0.5,
+                    log_ioi_ratio: (i > 0).then_some(0.0),
+                    metric: MetricLevel::Weak,
+                }
+            })
+            .collect();
+        Sequence { notes }
+    }
+
+    // A long work made of one figure against itself: every figure is too common to pair
+    // everywhere, and thinning to the proportional diagonal must still find the whole work,
+    // with the score of the work aligned with itself (by definition the best there is).
+    #[test]
+    fn a_work_of_one_figure_against_itself_is_found_whole() {
+        let a = trill(2100);
+        assert!(is_seeded(a.len(), a.len()));
+        let params = AlignParams::default();
+        let (found, best, method) = align_seeded(&a, &a, &params);
+        let SearchMethod::Seeded {
+            thinned_figures, ..
+        } = method
+        else {
+            panic!("{method:?}");
+        };
+        assert!(thinned_figures > 0);
+        let whole = self_score(&a, (0, a.len() - 1), &params);
+        assert_eq!(best, whole);
+        assert_eq!(found[0].a_range, (0, a.len() - 1));
+        assert_eq!(found[0].b_range, (0, a.len() - 1));
+    }
 }
