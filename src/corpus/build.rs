@@ -48,6 +48,9 @@ pub fn corpus_files(dir: &std::path::Path) -> std::io::Result<Vec<std::path::Pat
     Ok(out)
 }
 
+/// What reading one corpus file gave: its indexed lines, or why it was skipped.
+type FileOutcome = Result<Vec<MelodyEntry>, String>;
+
 /// The outcome of building an index from a folder.
 #[derive(Debug)]
 pub struct Built {
@@ -174,8 +177,7 @@ pub fn build_from_dir(
         .min(files.len().max(1));
     let gate = Gate::new(workers);
     let next = AtomicUsize::new(0);
-    let slots: Vec<Mutex<Option<Result<Vec<MelodyEntry>, String>>>> =
-        files.iter().map(|_| Mutex::new(None)).collect();
+    let slots: Vec<Mutex<Option<FileOutcome>>> = files.iter().map(|_| Mutex::new(None)).collect();
     let read_one = |path: &std::path::PathBuf| {
         let relative = path
             .strip_prefix(dir)
