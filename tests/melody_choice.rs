@@ -226,6 +226,14 @@ fn melody_moving_between_instruments() {
             .map(|p| p.a.part.as_str())
             .collect();
         assert!(sharing.len() >= 2, "tune{k}-moving: {sharing:?}");
+        // The reports say which other lines share a passage and that theirs are not reported.
+        let record = collatio::report::compare::record(&f);
+        assert_eq!(record.also_sharing.len(), sharing.len() - 1);
+        let text = collatio::report::pairings::render(&f);
+        assert!(text.contains("Other lines share a passage too"), "{text}");
+        for other in &record.also_sharing {
+            assert!(text.contains(other.as_str()), "{other}: {text}");
+        }
     }
 }
 
