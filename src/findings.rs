@@ -140,6 +140,9 @@ pub struct Hit {
     pub query_line: String,
     /// Path of the melody inside the corpus.
     pub path: String,
+    /// The corpus line matched: the label of the indexed line (part, staff and voice in
+    /// words), or its part id in an index built with one line per file.
+    pub corpus_line: String,
     /// Title, when the file had one.
     pub title: Option<String>,
     /// Relatedness to the query (as `compare` defines it); hits are ranked by its value.

@@ -368,7 +368,11 @@ fn search_line(
             .total_cmp(&x.0.value)
             .then_with(|| y.0.best_score.cmp(&x.0.best_score))
             .then_with(|| x.1.path.cmp(&y.1.path))
+            .then_with(|| x.1.part.cmp(&y.1.part))
     });
+    // A file indexed through several lines is one hit, through its most related line.
+    let mut seen = std::collections::BTreeSet::new();
+    ranked.retain(|(_, entry)| seen.insert(entry.path.clone()));
     let mut hits: Vec<Hit> = Vec::new();
     progress.step(&format!("aligning the best matches for {line}"), None);
     for chunk in ranked.chunks(settings.top.max(1)) {
@@ -383,6 +387,7 @@ fn search_line(
                 (!result.passages.is_empty()).then(|| Hit {
                     query_line: line.clone(),
                     path: entry.path.clone(),
+                    corpus_line: entry.part.clone(),
                     title: entry.title.clone(),
                     relatedness: result.relatedness,
                     coverage: result.coverage,

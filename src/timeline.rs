@@ -479,6 +479,13 @@ impl Selection {
     }
 }
 
+/// A candidate line at least this share of the busiest line's onset density counts as
+/// voice-like for [`LineFeatures::pitch_below_voices`]. Stated in advance (half), not fitted.
+pub const VOICE_LIKE_DENSITY: f64 = 0.5;
+/// A candidate line with a single note at at least this share of its onsets counts as
+/// voice-like for [`LineFeatures::pitch_below_voices`]. Stated in advance (half), not fitted.
+pub const VOICE_LIKE_SINGLE: f64 = 0.5;
+
 /// Statistics of one candidate melody line, after the track descriptors of Rizo et al.
 /// (2006), "A pattern recognition approach for melody track selection in MIDI files"
 /// (ISMIR): each a share, or a size scaled to about one. Computed by the reader's melody
@@ -498,10 +505,23 @@ pub struct LineFeatures {
     pub rhythm_variety: f64,
     /// Pitch range of the top-voice line in semitones over 24, at most 2.
     pub range: f64,
-    /// Mean pitch of the top-voice line, (MIDI − 60) / 12.
+    /// Mean pitch of the top-voice line, (MIDI − 60) / 12. Reported, not used by the model:
+    /// absolute height does not carry from one arrangement or voice type to another.
     pub pitch_mean: f64,
     /// Mean pitch less the highest mean pitch of the candidate lines, in octaves (≤ 0).
+    /// Reported, not used by the model: a pad or block chords above the tune make the tune
+    /// lie below the highest line.
     pub pitch_mean_relative: f64,
+    /// Mean pitch less the highest mean pitch of the voice-like candidate lines, in octaves,
+    /// at most 0: lines at least half as busy as the busiest
+    /// ([`VOICE_LIKE_DENSITY`](crate::timeline::VOICE_LIKE_DENSITY)) with a single note at at
+    /// least half their onsets ([`VOICE_LIKE_SINGLE`](crate::timeline::VOICE_LIKE_SINGLE));
+    /// the highest line when none is. How far the line lies below the highest line that moves
+    /// like a voice, rather than below a sustained pad or block chords.
+    pub pitch_below_voices: f64,
+    /// Mean pitch less the lowest mean pitch of the candidate lines, in octaves (≥ 0): how
+    /// far the line lies above the work's bass.
+    pub pitch_above_lowest: f64,
     /// Standard deviation of the pitches, in octaves.
     pub pitch_spread: f64,
     /// Mean absolute interval between successive notes, in octaves.

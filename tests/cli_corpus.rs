@@ -198,3 +198,112 @@ fn verify_and_the_previous_format() {
     assert_eq!(new_hits, old_hits);
     assert_eq!((new_version, old_version), (Some(3), Some(2)));
 }
+
+/// `corpus build` indexes the best few candidate lines of each file, each naming its line, and
+/// a search hit names the corpus line it matched: every line of an arrangement is found through
+/// itself, whatever its rank, and the plain tune through the tune's track. Fixtures: tunes of
+/// "Ryan's Mammoth Collection" (1883) arranged by
+/// `tests/fixtures/melody_choice/make_melody_choice_fixtures.py` on four tracks named "Part 1"
+/// (a line of half notes above the tune), "Part 2" (the tune), "Part 3" (a bass) and drums.
+#[test]
+fn corpus_build_indexes_several_lines_of_each_file() {
+    let tmp = tempfile::tempdir().unwrap();
+    let corpus = tmp.path().join("arrangements");
+    std::fs::create_dir(&corpus).unwrap();
+    for k in 1..=3 {
+        let name = format!("tune{k}-neutral.mid");
+        std::fs::copy(
+            common::fixture(&format!("melody_choice/{name}")),
+            corpus.join(&name),
+        )
+        .unwrap();
+    }
+    let build = |lines: &str, file: &str| {
+        let index = tmp.path().join(file).display().to_string();
+        let (code, _, stderr) = run(&[
+            "corpus",
+            "build",
+            &corpus.display().to_string(),
+            "-o",
+            &index,
+            "--melody-candidates",
+            lines,
+            "--no-progress",
+        ]);
+        assert_eq!(code, 0, "{stderr}");
+        (index, stderr)
+    };
+    // Three pitched tracks in each file (the drums are no candidate).
+    let (three, stderr) = build("3", "three.idx");
+    assert!(
+        stderr.contains("indexed 9 melodies from 3 files"),
+        "{stderr}"
+    );
+    let (one, stderr) = build("1", "one.idx");
+    assert!(
+        stderr.contains("indexed 3 melodies from 3 files"),
+        "{stderr}"
+    );
+    let query = common::fixture("melody_choice/tune2-neutral.mid")
+        .display()
+        .to_string();
+    let search = |index: &str, line: &str| -> Value {
+        let (code, stdout, stderr) = run(&[
+            "search",
+            &query,
+            "--corpus",
+            index,
+            "--select",
+            &format!("part={line}"),
+            "--no-chance",
+            "--format",
+            "json",
+        ]);
+        assert!(code == 0 || code == 1, "{stderr}");
+        serde_json::from_str(&stdout).unwrap()
+    };
+    let through = |v: &Value, line: &str| {
+        v["hits"].as_array().unwrap().iter().any(|h| {
+            h["path"] == "tune2-neutral.mid"
+                && h["corpus_line"]
+                    .as_str()
+                    .unwrap()
+                    .contains(&format!("\"{line}\""))
+                && h["relatedness"]["value"].as_f64().unwrap() > 0.99
+        })
+    };
+    // The file's rank order of its lines, as the reader gives it.
+    let (_, stdout, _) = run(&["inspect", &query, "--format", "json"]);
+    let inspected: Value = serde_json::from_str(&stdout).unwrap();
+    let ranked: Vec<String> = inspected["candidates"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c["label"].as_str().unwrap().to_string())
+        .collect();
+    assert_eq!(ranked.len(), 3, "{ranked:?}");
+    for line in ["Part 1", "Part 2", "Part 3"] {
+        let first = ranked[0].contains(&format!("\"{line}\""));
+        assert!(through(&search(&three, line), line), "{line} in {three}");
+        // With one line per file, only the most melody-like is there to be found.
+        assert_eq!(
+            through(&search(&one, line), line),
+            first,
+            "{line}: {ranked:?}"
+        );
+    }
+    // The plain tune finds its arrangement through the tune's track, and the text names it.
+    let plain = common::fixture("melody_choice/tune2-plain.mid")
+        .display()
+        .to_string();
+    let (code, stdout, stderr) = run(&["search", &plain, "--corpus", &three, "--no-chance"]);
+    assert_eq!(code, 0, "{stderr}");
+    let first_hit = stdout
+        .lines()
+        .skip_while(|l| !l.contains("tune2-neutral.mid"))
+        .nth(1)
+        .unwrap_or_default()
+        .to_string();
+    assert!(first_hit.contains("corpus line track"), "{stdout}");
+    assert!(first_hit.contains("\"Part 2\""), "{stdout}");
+}

@@ -17,6 +17,7 @@ fn index() -> CorpusIndex {
     let built = build_from_dir(
         &dir,
         &ReadOptions::default(),
+        collatio::compare::pairing::DEFAULT_CANDIDATES,
         &collatio::progress::NoProgress,
     )
     .unwrap();

@@ -3,8 +3,10 @@
 //!
 //! Development set: `tests/fixtures/melody_choice/dev_set.json`, written by
 //! `scripts/melody_dev_set.py` from music21's bundled public-domain corpus (Bach chorales,
-//! songs with piano, classical string quartets, O'Neill's "Music of Ireland" tunes with a
-//! keyboard accompaniment). Arrangements: `tests/fixtures/melody_choice/`, written by
+//! songs with piano, the songs for voice and piano with the voice an octave lower, classical
+//! string quartets, O'Neill's "Music of Ireland" and Essen folk tunes with a keyboard
+//! accompaniment under them, other Essen tunes with a keyboard right hand or a sustained line
+//! above them). Arrangements: `tests/fixtures/melody_choice/`, written by
 //! `make_melody_choice_fixtures.py` there from tunes of "Ryan's Mammoth Collection" (1883),
 //! which are not in the development set.
 
@@ -48,6 +50,57 @@ fn weights_are_the_fitted_ones() {
     }
 }
 
+/// Whether the most melody-like candidate of a file of the development set is the melody.
+fn ranked_first(file: &serde_json::Value) -> bool {
+    let candidates = file["candidates"].as_array().unwrap();
+    let mut best = (f64::MIN, 0usize);
+    for (k, c) in candidates.iter().enumerate() {
+        let x: Vec<f64> = c["x"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect();
+        let z = log_odds_of(&x);
+        if z > best.0 {
+            best = (z, k);
+        }
+    }
+    candidates[best.1]["label"] == 1
+}
+
+/// The held-out files whose melody is not the highest line (the mean pitch of each line of the
+/// melody's part below another candidate's): songs for voice and piano from music21's corpus with the voice an octave
+/// lower, as a tenor or baritone sings a treble-clef part (Schubert's "Der Lindenbaum",
+/// Schumann's "Dichterliebe" no. 2, Handel's "Lascia ch'io pianga"), Essen folk tunes moved to
+/// a middle register under a keyboard right hand or a sustained line, and any chorale, quartet
+/// or song of the corpus whose tune dips below another part. Height alone would rank none of
+/// them right; at least 90% (a target stated before the fit, under the 95% of the whole set
+/// because these are the hard cases) must be.
+#[test]
+fn melody_below_another_line_ranked_first_on_held_out_half() {
+    let set = dev_set();
+    let below: Vec<&serde_json::Value> = set["files"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["half"] == "check")
+        .filter(|f| {
+            f["candidates"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .filter(|c| c["label"] == 1)
+                .all(|c| c["pitch_mean_relative"].as_f64().unwrap() < 0.0)
+        })
+        .collect();
+    let hits = below.iter().filter(|f| ranked_first(f)).count();
+    eprintln!("melody below another line: {hits}/{}", below.len());
+    assert!(below.len() >= 30, "held-out files: {}", below.len());
+    let accuracy = hits as f64 / below.len() as f64;
+    assert!(accuracy >= 0.9, "ranked first: {accuracy:.3}");
+}
+
 /// Ranked-first accuracy of the melody part on the half of the development set that did not
 /// fit the weights: at least 95% over all files, the target of the task (issue 17), with the
 /// melody as the corpus marks it (the Soprano of Bach's chorales, the voice of songs, the first
@@ -60,21 +113,7 @@ fn melody_ranked_first_on_held_out_half() {
         if file["half"] != "check" {
             continue;
         }
-        let candidates = file["candidates"].as_array().unwrap();
-        let mut best = (f64::MIN, 0usize);
-        for (k, c) in candidates.iter().enumerate() {
-            let x: Vec<f64> = c["x"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|v| v.as_f64().unwrap())
-                .collect();
-            let z = log_odds_of(&x);
-            if z > best.0 {
-                best = (z, k);
-            }
-        }
-        let hit = candidates[best.1]["label"] == 1;
+        let hit = ranked_first(file);
         let entry = per
             .entry(file["collection"].as_str().unwrap().to_string())
             .or_default();
@@ -187,6 +226,14 @@ fn melody_moving_between_instruments() {
             .map(|p| p.a.part.as_str())
             .collect();
         assert!(sharing.len() >= 2, "tune{k}-moving: {sharing:?}");
+        // The reports say which other lines share a passage and that theirs are not reported.
+        let record = collatio::report::compare::record(&f);
+        assert_eq!(record.also_sharing.len(), sharing.len() - 1);
+        let text = collatio::report::pairings::render(&f);
+        assert!(text.contains("Other lines share a passage too"), "{text}");
+        for other in &record.also_sharing {
+            assert!(text.contains(other.as_str()), "{other}: {text}");
+        }
     }
 }
 

@@ -133,7 +133,8 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
         );
     }
     let reporter = Reporter::new(args.progress.no_progress);
-    let built = build_from_dir(&args.dir, &options, &reporter)
+    let lines = usize::from(args.melody_candidates);
+    let built = build_from_dir(&args.dir, &options, lines, &reporter)
         .with_context(|| format!("{}: cannot read the folder", args.dir.display()))?;
     reporter.step("writing the index", None);
     let bytes = built.index.to_bytes()?;
@@ -150,7 +151,7 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
     }
     drop(reporter);
     say!(
-        "collatio: indexed {} melodies from {} files into {} ({} bytes, {} figures)",
+        "collatio: indexed {} melodies from {} files into {} ({} bytes, {} figures; {})",
         built.index.melodies.len(),
         built.files,
         if to_stdout {
@@ -159,7 +160,15 @@ pub fn build(args: &BuildArgs) -> Result<i32> {
             args.output.display().to_string()
         },
         size,
-        built.index.postings.len()
+        built.index.postings.len(),
+        if lines > 1 {
+            format!(
+                "the {lines} most melody-like lines of each file, where it has that many \
+                 (--melody-candidates)"
+            )
+        } else {
+            "the most melody-like line of each file".to_string()
+        }
     );
     if built.index.melodies.is_empty() {
         say!("collatio: warning: the index holds no melodies; searches in it will find nothing");

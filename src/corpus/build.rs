@@ -48,6 +48,9 @@ pub fn corpus_files(dir: &std::path::Path) -> std::io::Result<Vec<std::path::Pat
     Ok(out)
 }
 
+/// What reading one corpus file gave: its indexed lines, or why it was skipped.
+type FileOutcome = Result<Vec<MelodyEntry>, String>;
+
 /// The outcome of building an index from a folder.
 #[derive(Debug)]
 pub struct Built {
@@ -55,6 +58,8 @@ pub struct Built {
     pub index: CorpusIndex,
     /// Files tried.
     pub files: usize,
+    /// Files read (each gave one or more melodies).
+    pub read: usize,
     /// Files skipped, each with the reason.
     pub skipped: Vec<String>,
 }
@@ -149,14 +154,17 @@ fn is_large(path: &std::path::Path) -> bool {
     }
 }
 
-/// Reads every corpus file under `dir` (results in path order) and indexes the melodies;
-/// unreadable files are skipped and listed. At most [`MAX_FILES_IN_FLIGHT`] files are read at
+/// Reads every corpus file under `dir` (results in path order) and indexes the first
+/// `lines_per_file` candidate melody lines of each ([`MelodyEntry::lines_of`]: most
+/// melody-like first; one line when `options` selects one); unreadable files are skipped and
+/// listed. At most [`MAX_FILES_IN_FLIGHT`] files are read at
 /// once, and a large file ([`LARGE_FILE_BYTES`], on disk or inflated) alone, so that the memory of a build does not
 /// grow with the number of cores. Reports the step `"reading files"` to `progress`, one unit
 /// per file.
 pub fn build_from_dir(
     dir: &std::path::Path,
     options: &crate::ingest::ReadOptions,
+    lines_per_file: usize,
     progress: &dyn Progress,
 ) -> std::io::Result<Built> {
     use std::sync::atomic::{AtomicUsize, Ordering};
@@ -169,8 +177,7 @@ pub fn build_from_dir(
         .min(files.len().max(1));
     let gate = Gate::new(workers);
     let next = AtomicUsize::new(0);
-    let slots: Vec<Mutex<Option<Result<MelodyEntry, String>>>> =
-        files.iter().map(|_| Mutex::new(None)).collect();
+    let slots: Vec<Mutex<Option<FileOutcome>>> = files.iter().map(|_| Mutex::new(None)).collect();
     let read_one = |path: &std::path::PathBuf| {
         let relative = path
             .strip_prefix(dir)
@@ -179,7 +186,7 @@ pub fn build_from_dir(
             .replace('\\', "/");
         let _pass = gate.enter(if is_large(path) { workers } else { 1 });
         crate::ingest::read_file(path, options)
-            .map(|piece| MelodyEntry::from_piece(&piece, relative))
+            .map(|piece| MelodyEntry::lines_of(&piece, &relative, lines_per_file))
             .map_err(|e| e.to_string())
     };
     let work = || loop {
@@ -211,9 +218,13 @@ pub fn build_from_dir(
     })?;
     let mut melodies = Vec::new();
     let mut skipped = Vec::new();
+    let mut read = 0;
     for (slot, path) in slots.into_iter().zip(&files) {
         match slot.into_inner().unwrap_or_else(|e| e.into_inner()) {
-            Some(Ok(m)) => melodies.push(m),
+            Some(Ok(lines)) => {
+                read += 1;
+                melodies.extend(lines);
+            }
             Some(Err(e)) => skipped.push(e),
             None => skipped.push(format!("{}: not read", path.display())),
         }
@@ -221,6 +232,7 @@ pub fn build_from_dir(
     Ok(Built {
         index: CorpusIndex::build(melodies),
         files: files.len(),
+        read,
         skipped,
     })
 }

@@ -57,7 +57,10 @@ pub struct MelodyEntry {
     pub sha256: String,
     /// Title from the file.
     pub title: Option<String>,
-    /// Part the melody came from.
+    /// The line the melody came from: its candidate line's label (part id and name, staff and
+    /// voice, as `inspect` lists candidates), or the part id when the piece offered no
+    /// candidates. Indexes built before several lines were indexed per file hold the part
+    /// id; the field's place and type are unchanged, so they still read.
     pub part: String,
     /// The melody.
     pub notes: Vec<StoredNote>,
@@ -68,19 +71,41 @@ pub struct MelodyEntry {
 }
 
 impl MelodyEntry {
-    /// The slim form of a piece's melody.
+    /// The slim form of a piece's melody, named by its part id.
     pub fn from_piece(piece: &Piece, path: String) -> MelodyEntry {
+        let part = piece
+            .parts
+            .get(piece.selection.part)
+            .map_or_else(String::new, |p| p.id.clone());
+        MelodyEntry::from_line(piece, path, part, &piece.melody)
+    }
+
+    /// The slim forms of a piece's first `limit` candidate lines (at least one), most
+    /// melody-like first, each named by its candidate's label; a piece without candidates
+    /// (a recording) gives its melody, named by its part id. A file whose tune is its second
+    /// or third most melody-like line is then found by a search through that line.
+    pub fn lines_of(piece: &Piece, path: &str, limit: usize) -> Vec<MelodyEntry> {
+        if piece.candidates.is_empty() {
+            return vec![MelodyEntry::from_piece(piece, path.to_string())];
+        }
+        piece
+            .candidates
+            .iter()
+            .take(limit.max(1))
+            .map(|c| MelodyEntry::from_line(piece, path.to_string(), c.label.clone(), &c.melody))
+            .collect()
+    }
+
+    /// The slim form of one line of a piece (its notes as the melody, with the piece's bars
+    /// and first key).
+    fn from_line(piece: &Piece, path: String, part: String, melody: &[Note]) -> MelodyEntry {
         let beats = |ticks: i64| piece.tempo.beats_at(ticks).0 as f32;
         MelodyEntry {
             path,
             sha256: piece.provenance.sha256.clone(),
             title: piece.title.clone(),
-            part: piece
-                .parts
-                .get(piece.selection.part)
-                .map_or_else(String::new, |p| p.id.clone()),
-            notes: piece
-                .melody
+            part,
+            notes: melody
                 .iter()
                 .map(|n| StoredNote {
                     pitch: n.pitch.0 as f32,

@@ -25,7 +25,8 @@ pub struct IndexSource {
     pub format_version: u32,
     /// Intervals per interval-and-rhythm figure (the index's n-gram length).
     pub figure_length: usize,
-    /// Melodies in the corpus.
+    /// Melodies in the corpus (indexed lines: up to `corpus build --melody-candidates` of each
+    /// file).
     pub melodies: usize,
 }
 

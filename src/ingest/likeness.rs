@@ -1,13 +1,15 @@
 //! Melody-likeness of a candidate line: the track statistics of Rizo, Ponce de León,
 //! Pérez-Sancho, Pertusa and Iñesta (2006), "A pattern recognition approach for melody track
 //! selection in MIDI files" (ISMIR 2006) — occupation and polyphony rate, note density,
-//! rhythmic variety, pitch range, mean and spread, interval sizes and the share of steps —
-//! computed on each candidate line, and combined by a logistic model whose weights were fitted
-//! by `scripts/melody_dev_set.py` on one half of a development set of real scores with a known
-//! melody (music21's bundled corpus) and checked on the other half (`docs/melody-choice.md`,
-//! `tests/melody_choice.rs`).
+//! rhythmic variety, pitch range and spread, interval sizes and the share of steps —
+//! computed on each candidate line, with the line's register taken relative to the work's own
+//! lines rather than as absolute pitch (see [`relate`]), and combined by a logistic model
+//! whose weights were fitted by `scripts/melody_dev_set.py` on one half of a development set
+//! of real scores with a known melody (music21's bundled corpus, with copies in which the
+//! accompaniment lies above the tune) and checked on the other half
+//! (`docs/melody-choice.md`, `tests/melody_choice.rs`).
 
-use crate::timeline::{LineFeatures, Note};
+use crate::timeline::{LineFeatures, Note, VOICE_LIKE_DENSITY, VOICE_LIKE_SINGLE};
 
 /// The features in the order of [`WEIGHTS`], as named in the development set.
 pub const FEATURE_NAMES: [&str; 13] = [
@@ -17,8 +19,8 @@ pub const FEATURE_NAMES: [&str; 13] = [
     "density_relative",
     "rhythm_variety",
     "range",
-    "pitch_mean",
-    "pitch_mean_relative",
+    "pitch_above_lowest",
+    "pitch_below_voices",
     "pitch_spread",
     "interval_mean",
     "steps",
@@ -27,13 +29,13 @@ pub const FEATURE_NAMES: [&str; 13] = [
 ];
 
 /// Intercept of the logistic model (fitted; see the module comment).
-pub const INTERCEPT: f64 = -3.278415;
+pub const INTERCEPT: f64 = -7.354663;
 
 /// Weights of the logistic model, in the order of [`FEATURE_NAMES`] (fitted; see the module
 /// comment).
 pub const WEIGHTS: [f64; 13] = [
-    1.767339, 0.715233, -0.013834, 0.684893, 0.094306, -0.469058, 2.726035, 7.179504, 0.275862,
-    -0.148674, 0.904212, -0.624496, -0.730011,
+    4.172149, -1.545870, 1.098059, 1.745192, 3.278502, -0.671063, 1.024386, 4.029694, 0.308567,
+    -1.331368, 2.101181, -1.749906, -3.095425,
 ];
 
 /// Two lines whose melody-likeness differs by less than this are "close": the reports say
@@ -49,8 +51,8 @@ pub fn feature_vector(f: &LineFeatures) -> [f64; 13] {
         f.density_relative,
         f.rhythm_variety,
         f.range,
-        f.pitch_mean,
-        f.pitch_mean_relative,
+        f.pitch_above_lowest,
+        f.pitch_below_voices,
         f.pitch_spread,
         f.interval_mean,
         f.steps,
@@ -130,13 +132,23 @@ pub fn line_features(notes: &[&Note], line: &[Note], span: (f64, f64)) -> LineFe
 }
 
 /// Fills the features relative to the other candidates: density over the densest, mean pitch
-/// less the highest mean.
+/// less the highest mean, less the lowest mean, and less the highest mean of the voice-like
+/// lines ([`LineFeatures::pitch_below_voices`]). Register enters the model only through the
+/// last two: a line's height among the work's own lines, never its absolute pitch (the
+/// likeness of a line does not change when the whole work is transposed), and measured
+/// against the lines that move like a voice, so that a pad or block chords above the tune do
+/// not push it down (the high-voice superiority of independent voices, Huron 2001, "Tone and
+/// voice", Music Perception 19(1), applies to lines heard as voices).
 pub fn relate(features: &mut [LineFeatures]) {
     let densest = features.iter().map(|f| f.density).fold(0.0, f64::max);
     let highest = features
         .iter()
         .map(|f| f.pitch_mean)
         .fold(f64::MIN, f64::max);
+    let lowest = features
+        .iter()
+        .map(|f| f.pitch_mean)
+        .fold(f64::MAX, f64::min);
     for f in features.iter_mut() {
         f.density_relative = if densest > 0.0 {
             f.density / densest
@@ -144,6 +156,23 @@ pub fn relate(features: &mut [LineFeatures]) {
             0.0
         };
         f.pitch_mean_relative = f.pitch_mean - highest;
+        f.pitch_above_lowest = f.pitch_mean - lowest;
+    }
+    let voice_like = |f: &&LineFeatures| {
+        f.density_relative >= VOICE_LIKE_DENSITY && f.single_onsets >= VOICE_LIKE_SINGLE
+    };
+    let highest_voice = features
+        .iter()
+        .filter(voice_like)
+        .map(|f| f.pitch_mean)
+        .fold(f64::MIN, f64::max);
+    let reference = if highest_voice > f64::MIN {
+        highest_voice
+    } else {
+        highest
+    };
+    for f in features.iter_mut() {
+        f.pitch_below_voices = (f.pitch_mean - reference).min(0.0);
     }
 }
 
@@ -207,4 +236,115 @@ fn ioi_entropy(line: &[Note]) -> f64 {
             -p * p.log2()
         })
         .sum()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A line of quarter notes at the given pitches, chords where a slot holds several.
+    fn line(slots: &[&[f64]]) -> Vec<Note> {
+        let mut out = Vec::new();
+        for (k, slot) in slots.iter().enumerate() {
+            for &p in *slot {
+                out.push(Note {
+                    onset: crate::units::Beats(k as f64),
+                    duration: crate::units::Beats(1.0),
+                    ..Note::at_ticks(k as i64 * 480, 480, p)
+                });
+            }
+        }
+        out
+    }
+
+    /// The features of each line, related: the top voice is the highest note of each onset.
+    fn related(lines: &[Vec<Note>]) -> Vec<LineFeatures> {
+        let mut features: Vec<LineFeatures> = lines
+            .iter()
+            .map(|notes| {
+                let refs: Vec<&Note> = notes.iter().collect();
+                let mut top: Vec<Note> = Vec::new();
+                for n in notes {
+                    match top.last_mut() {
+                        Some(t) if t.onset_ticks == n.onset_ticks => {
+                            if n.pitch.0 > t.pitch.0 {
+                                *t = n.clone();
+                            }
+                        }
+                        _ => top.push(n.clone()),
+                    }
+                }
+                line_features(&refs, &top, (0.0, 8.0))
+            })
+            .collect();
+        relate(&mut features);
+        features
+    }
+
+    fn likenesses(lines: &[Vec<Note>]) -> Vec<f64> {
+        related(lines).iter().map(likeness).collect()
+    }
+
+    /// Register enters the model only relative to the work's own lines: transposing every line
+    /// of a work by the same interval leaves every likeness unchanged.
+    #[test]
+    fn likeness_does_not_change_when_the_whole_work_is_transposed() {
+        let tune: &[&[f64]] = &[
+            &[67.0],
+            &[69.0],
+            &[71.0],
+            &[72.0],
+            &[71.0],
+            &[69.0],
+            &[67.0],
+        ];
+        let chords: &[&[f64]] = &[
+            &[72.0, 76.0, 79.0],
+            &[72.0, 77.0, 81.0],
+            &[74.0, 79.0, 83.0],
+        ];
+        let bass: &[&[f64]] = &[&[43.0], &[48.0], &[50.0], &[43.0]];
+        let work = [line(tune), line(chords), line(bass)];
+        let before = likenesses(&work);
+        for shift in [-24.0, -12.0, 5.0, 12.0] {
+            let moved: Vec<Vec<Note>> = work
+                .iter()
+                .map(|l| {
+                    l.iter()
+                        .map(|n| Note {
+                            pitch: crate::units::MidiPitch(n.pitch.0 + shift),
+                            ..n.clone()
+                        })
+                        .collect()
+                })
+                .collect();
+            let after = likenesses(&moved);
+            for (a, b) in before.iter().zip(&after) {
+                assert!((a - b).abs() < 1e-12, "{shift}: {before:?} {after:?}");
+            }
+        }
+    }
+
+    /// Block chords above a single-note line are not voice-like: the line's height is measured
+    /// against the voice-like lines, so it is not below anything.
+    #[test]
+    fn chords_above_do_not_push_a_line_down() {
+        let tune: &[&[f64]] = &[
+            &[67.0],
+            &[69.0],
+            &[71.0],
+            &[72.0],
+            &[71.0],
+            &[69.0],
+            &[67.0],
+        ];
+        let chords: &[&[f64]] = &[
+            &[76.0, 79.0, 84.0],
+            &[77.0, 81.0, 84.0],
+            &[79.0, 83.0, 86.0],
+        ];
+        let features = related(&[line(tune), line(chords)]);
+        assert!(features[0].pitch_mean_relative < 0.0);
+        assert_eq!(features[0].pitch_below_voices, 0.0);
+    }
 }

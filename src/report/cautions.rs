@@ -29,7 +29,8 @@ pub fn absence_caution(corpus_melodies: usize) -> String {
     format!(
         "Absence of a match in this corpus of {corpus_melodies} melodies is not clearance: \
          other music, other versions and other transcriptions are not in it, and a match can \
-         hide in a part that was not indexed as the melody."
+         hide in a line that was not indexed (an index holds the few most melody-like lines \
+         of each file)."
     )
 }
 

@@ -28,6 +28,9 @@ pub struct WorkRecord {
     pub line: String,
     /// Note when the two most melody-like lines of the work are close (`null` otherwise).
     pub close_candidates: Option<String>,
+    /// Candidate lines no pairing checked (less melody-like than those paired), each with its
+    /// melody-likeness.
+    pub lines_not_checked: Vec<String>,
     /// What was compared and why.
     pub selection: String,
     /// Notes in the melody compared.
@@ -78,6 +81,9 @@ pub struct CompareRecord {
     /// Every pairing of candidate melody lines checked, with its figures; the one compared is
     /// marked `chosen`. With more than one, the E-values are multiplied by their number.
     pub pairings: Vec<crate::compare::pairing::PairingCheck>,
+    /// The pairings other than the one reported that also share a passage (`A <line> × B
+    /// <line>`): their passages are not in `passages` (a tune moving between parts).
+    pub also_sharing: Vec<String>,
     /// The usual cautions, in short: what the record does not show.
     pub cautions: Vec<&'static str>,
 }
@@ -87,7 +93,13 @@ pub fn line_compared(piece: &Piece) -> String {
     crate::compare::pairing::line_label(piece)
 }
 
-fn work(tag: &str, piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord {
+fn work(
+    tag: &str,
+    piece: &Piece,
+    findings: &Findings,
+    notes: usize,
+    unmatched: usize,
+) -> WorkRecord {
     WorkRecord {
         source: piece.provenance.clone(),
         title: piece.title.clone(),
@@ -97,6 +109,7 @@ fn work(tag: &str, piece: &Piece, notes: usize, unmatched: usize) -> WorkRecord 
             .map_or_else(String::new, |p| p.id.clone()),
         line: line_compared(piece),
         close_candidates: super::pairings::close_note(tag, piece),
+        lines_not_checked: super::pairings::lines_not_checked(piece, &findings.pairings, tag),
         selection: piece.selection.reason.clone(),
         notes,
         unmatched_notes: unmatched,
@@ -115,8 +128,8 @@ pub fn record(findings: &Findings) -> CompareRecord {
             version: env!("CARGO_PKG_VERSION"),
         },
         document_digest: None,
-        a: work("A", a, result.notes_a, result.unmatched_a),
-        b: work("B", b, result.notes_b, result.unmatched_b),
+        a: work("A", a, result, result.notes_a, result.unmatched_a),
+        b: work("B", b, result, result.notes_b, result.unmatched_b),
         parameters: findings.settings.align.clone(),
         relatedness: result.relatedness,
         coverage: result.coverage,
@@ -127,6 +140,7 @@ pub fn record(findings: &Findings) -> CompareRecord {
         harmony: result.harmony.clone(),
         synchronisation: result.synchronisation.clone(),
         pairings: result.pairings.clone(),
+        also_sharing: super::pairings::also_sharing(&result.pairings),
         cautions: super::cautions::SHORT.to_vec(),
     }
 }

@@ -64,6 +64,43 @@ pub fn sentences(pairings: &[PairingCheck]) -> Vec<String> {
         .collect()
 }
 
+/// The pairings other than the one reported that also share a passage, each as
+/// `A <line> × B <line>`: a tune that moves between parts (a verse in the voice, a hook in a
+/// saxophone) shows here. Their passages are not reported: only the chosen pairing is compared
+/// in full, and passages across parts are not joined.
+pub fn also_sharing(pairings: &[PairingCheck]) -> Vec<String> {
+    pairings
+        .iter()
+        .filter(|p| p.shares_passage && !p.chosen)
+        .map(|p| format!("A {} × B {}", p.a.label, p.b.label))
+        .collect()
+}
+
+/// A sentence saying which other pairings share a passage and that their passages are not in
+/// the report, when any do.
+pub fn elsewhere_note(pairings: &[PairingCheck]) -> Option<String> {
+    let others = also_sharing(pairings);
+    (!others.is_empty() && pairings.iter().any(|p| p.chosen)).then(|| {
+        format!(
+            "Other lines share a passage too, so the tune may move between parts: {}. Only the \
+             pairing reported was compared in full; the passages in those lines are not in this \
+             report and are not joined with it (compare a line alone with --select-a/--select-b).",
+            others.join("; ")
+        )
+    })
+}
+
+/// The candidate lines of a work that no pairing checked (less melody-like than those paired),
+/// each with its melody-likeness: `"A"` or `"B"` names the work's side in `pairings`.
+pub fn lines_not_checked(piece: &Piece, pairings: &[PairingCheck], side: &str) -> Vec<String> {
+    let checked = pairings
+        .iter()
+        .map(|p| if side == "A" { p.a.rank } else { p.b.rank })
+        .max()
+        .unwrap_or(1);
+    unchecked(piece, checked)
+}
+
 /// Candidate lines of a work beyond those paired, named.
 fn unchecked(piece: &Piece, checked: usize) -> Vec<String> {
     piece
@@ -98,6 +135,9 @@ pub fn render(findings: &Findings) -> String {
         ));
         out.push_str(" also checked:\n");
         out.push_str(&listing(pairings, true));
+        if let Some(note) = elsewhere_note(pairings) {
+            out.push_str(&format!(" {note}\n"));
+        }
     }
     if !rest_a.is_empty() || !rest_b.is_empty() {
         out.push_str(&format!(

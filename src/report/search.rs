@@ -83,9 +83,12 @@ pub fn render_text(found: &SearchFindings) -> String {
                 p.a.bars[0], p.a.bars[1], p.b.bars[0], p.b.bars[1], p.a.notes, p.pmi
             )
         });
-        let mut name: String = h.path.chars().take(40).collect();
+        let name: String = h.path.chars().take(40).collect();
+        // The lines matched, on a line of their own: the corpus line (an index holds up to
+        // `--melody-candidates` lines of each file) and, with several, the query line.
+        let mut lines = format!("corpus line {}", h.corpus_line);
         if found.query_lines.len() > 1 {
-            name = format!("{name} (query {})", h.query_line);
+            lines.push_str(&format!("; query line {}", h.query_line));
         }
         let e = h
             .passages
@@ -100,6 +103,7 @@ pub fn render_text(found: &SearchFindings) -> String {
             name,
             best
         ));
+        out.push_str(&format!("     {:>11}  {:>8}  {lines}\n", "", ""));
     }
     out.push_str(
         "\n relatedness: the best shared passage's score over the geometric mean of each \

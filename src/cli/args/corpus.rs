@@ -36,6 +36,12 @@ pub struct BuildArgs {
     /// Index file to write (atomically; never over an input).
     #[arg(short, long, value_name = "FILE")]
     pub output: PathBuf,
+    /// Candidate melody lines of each file indexed (the most melody-like parts, staves and
+    /// voices), each as its own melody naming its line, so that a file whose tune is not its
+    /// most melody-like line is still found; 1 indexes only the most melody-like.
+    #[arg(long, value_name = "N", default_value_t = 3,
+          value_parser = clap::value_parser!(u16).range(1..=12), help_heading = "SELECTION")]
+    pub melody_candidates: u16,
     #[command(flatten)]
     pub limits: LimitArgs,
     #[command(flatten)]

@@ -67,6 +67,11 @@ pub struct ExhibitContext {
     pub pairings: Vec<String>,
     /// Notes on works whose most melody-like lines are close.
     pub close_candidates: Vec<String>,
+    /// Which other pairings share a passage too, and that their passages are not reported
+    /// (empty when none does).
+    pub elsewhere: String,
+    /// Candidate lines no pairing checked, per work (`A: …; B: …`; empty when none).
+    pub unchecked: String,
 }
 
 /// Builds the templates' context.
@@ -123,6 +128,19 @@ pub fn context(ex: &Exhibit<'_>) -> ExhibitContext {
             .filter_map(|(tag, piece)| crate::report::pairings::close_note(tag, piece))
             .collect(),
         sync: sync_context(r.synchronisation.as_ref()),
+        elsewhere: crate::report::pairings::elsewhere_note(&r.pairings).unwrap_or_default(),
+        unchecked: [("A", ex.a), ("B", ex.b)]
+            .iter()
+            .map(|(tag, piece)| {
+                (
+                    tag,
+                    crate::report::pairings::lines_not_checked(piece, &r.pairings, tag),
+                )
+            })
+            .filter(|(_, lines)| !lines.is_empty())
+            .map(|(tag, lines)| format!("{tag}: {}", lines.join(", ")))
+            .collect::<Vec<_>>()
+            .join("; "),
     }
 }
 
