@@ -93,20 +93,19 @@ fn long_pair(k: usize, target: usize) -> (Piece, Piece) {
     // Different unrelated tunes on each side, taken from different places of the list.
     let half = background.len() / 2;
     let offset = (k * 37) % half;
-    let side_a: Vec<&Tune> = background[..half]
-        .iter()
-        .cycle()
-        .skip(offset)
-        .take(half)
-        .copied()
-        .collect();
-    let side_b: Vec<&Tune> = background[half..]
-        .iter()
-        .cycle()
-        .skip(offset)
-        .take(half)
-        .copied()
-        .collect();
+    fn rotated<'t>(tunes: &[&'t Tune], offset: usize) -> Vec<&'t Tune> {
+        tunes
+            .iter()
+            .cycle()
+            .skip(offset)
+            .take(tunes.len())
+            .copied()
+            .collect()
+    }
+    let (side_a, side_b) = (
+        rotated(&background[..half], offset),
+        rotated(&background[half..], offset),
+    );
     let a = long_work(&side_a, x, target, divisions);
     let b = long_work(&side_b, y, target, divisions);
     (

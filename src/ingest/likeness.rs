@@ -285,19 +285,22 @@ mod tests {
         related(lines).iter().map(likeness).collect()
     }
 
+    /// A plain tune of single notes (a scale up and back), for the tests of register.
+    const TUNE: &[&[f64]] = &[
+        &[67.0],
+        &[69.0],
+        &[71.0],
+        &[72.0],
+        &[71.0],
+        &[69.0],
+        &[67.0],
+    ];
+
     /// Register enters the model only relative to the work's own lines: transposing every line
     /// of a work by the same interval leaves every likeness unchanged.
     #[test]
     fn likeness_does_not_change_when_the_whole_work_is_transposed() {
-        let tune: &[&[f64]] = &[
-            &[67.0],
-            &[69.0],
-            &[71.0],
-            &[72.0],
-            &[71.0],
-            &[69.0],
-            &[67.0],
-        ];
+        let tune = TUNE;
         let chords: &[&[f64]] = &[
             &[72.0, 76.0, 79.0],
             &[72.0, 77.0, 81.0],
@@ -329,15 +332,7 @@ mod tests {
     /// against the voice-like lines, so it is not below anything.
     #[test]
     fn chords_above_do_not_push_a_line_down() {
-        let tune: &[&[f64]] = &[
-            &[67.0],
-            &[69.0],
-            &[71.0],
-            &[72.0],
-            &[71.0],
-            &[69.0],
-            &[67.0],
-        ];
+        let tune = TUNE;
         let chords: &[&[f64]] = &[
             &[76.0, 79.0, 84.0],
             &[77.0, 81.0, 84.0],
