@@ -135,6 +135,16 @@ fn compare_with_an_unreadable_file_is_an_input_error() {
     assert!(stderr.contains("/nonexistent/b.mid"), "{stderr}");
 }
 
+// The two works are read at once; when both are unreadable, A's error is the one reported,
+// as when they were read in turn.
+#[test]
+fn with_both_files_unreadable_the_first_is_named() {
+    let (code, _, stderr) = run(&["compare", "/nonexistent/a.mid", "/nonexistent/b.mid"]);
+    assert_eq!(code, 3, "{stderr}");
+    assert!(stderr.contains("/nonexistent/a.mid"), "{stderr}");
+    assert!(!stderr.contains("/nonexistent/b.mid"), "{stderr}");
+}
+
 #[test]
 fn identical_runs_give_identical_json() {
     let a = fixture("tune_family/twinkle_c_4-4.musicxml");

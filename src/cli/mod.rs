@@ -103,8 +103,13 @@ fn compare(args: CompareArgs) -> Result<i32> {
     check_compare_outputs(&args)?;
     let reporter = Reporter::new(args.progress.no_progress);
     let record = args.paths.record();
-    let a = read_recorded(&args.a, &options_a, record, &reporter)?;
-    let b = read_recorded(&args.b, &options_b, record, &reporter)?;
+    // The two works are read at once (a recording's analysis runs mostly on one core); A's
+    // error is reported first when both fail, as when they were read in turn.
+    let (a, b) = rayon::join(
+        || read_recorded(&args.a, &options_a, record, &reporter),
+        || read_recorded(&args.b, &options_b, record, &reporter),
+    );
+    let (a, b) = (a?, b?);
     let index = match &args.statistics.corpus {
         Some(path) => {
             reporter.step("reading the corpus index", None);
