@@ -160,6 +160,34 @@ fn pdf_text_holds_bars_hashes_cautions_and_counsel_statement() {
     }
 }
 
+// The cover (works, this document, parameters) fits on its page: the next page opens with the
+// summary, not with the cover's last lines (a page holding one stray sentence of the cover was
+// printed before its digest paragraph was shortened). Pages are split at form feeds by
+// pdftotext.
+#[test]
+fn the_cover_fits_on_its_page() {
+    let dir = tempfile::tempdir().unwrap();
+    let (code, _, stderr) = write_demo_exhibit(dir.path(), &[]);
+    assert_eq!(code, 0, "{stderr}");
+    let pdf = dir.path().join("exhibit.pdf");
+    let out = match Command::new("pdftotext").arg(&pdf).arg("-").output() {
+        Ok(out) if out.status.success() => out,
+        _ => {
+            println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped");
+            return;
+        }
+    };
+    let text = String::from_utf8_lossy(&out.stdout).into_owned();
+    let pages: Vec<&str> = text.split('\u{c}').collect();
+    assert!(
+        pages[0].contains("Parameters of the comparison"),
+        "{}",
+        pages[0]
+    );
+    assert!(pages[1].contains("Summary"), "{}", pages[1]);
+    assert!(!pages[1].contains("setting"), "{}", pages[1]);
+}
+
 #[test]
 fn letter_paper_and_no_date() {
     let dir = tempfile::tempdir().unwrap();
