@@ -128,14 +128,13 @@ pub(super) fn prefix_width(view: &StaffView) -> f32 {
 pub(super) struct SystemPlan {
     /// Number of systems.
     pub systems: usize,
-    /// Bars of A (at least 1).
-    na: usize,
-    /// Bars of B (at least 1).
-    nb: usize,
     /// Bars of A per system.
     ka: usize,
     /// Bars of B per system.
     kb: usize,
+    /// Bars of A and of B laid out (possibly 0).
+    len_a: usize,
+    len_b: usize,
 }
 
 impl SystemPlan {
@@ -159,19 +158,18 @@ impl SystemPlan {
         let systems = na.max(nb).div_ceil(per.max(1));
         SystemPlan {
             systems,
-            na,
-            nb,
             ka: na.div_ceil(systems),
             kb: nb.div_ceil(systems),
+            len_a: lay_a.len(),
+            len_b: lay_b.len(),
         }
     }
 
-    /// The bars of A and of B on system `sys`.
+    /// The bars of A and of B on system `sys`, within the bars laid out: a side whose bars
+    /// are used up before the other's (one far longer than the other) gets an empty range.
     pub fn bars(&self, sys: usize) -> (Range<usize>, Range<usize>) {
-        (
-            sys * self.ka..((sys + 1) * self.ka).min(self.na),
-            sys * self.kb..((sys + 1) * self.kb).min(self.nb),
-        )
+        let range = |per: usize, len: usize| (sys * per).min(len)..((sys + 1) * per).min(len);
+        (range(self.ka, self.len_a), range(self.kb, self.len_b))
     }
 }
 
@@ -270,5 +268,29 @@ mod tests {
         assert_eq!(key_alters(1)[3], 1);
         let bb = key_alters(-2);
         assert_eq!((bb[6], bb[2], bb[5]), (-1, -1, 0));
+    }
+
+    // 22 bars of A against 26 of B, two bars a system: 13 systems, and the last has no bar
+    // of A (an empty range at A's end, never past it; a comparison of a long work with a
+    // short one once panicked here). No bars at all on one side gives empty ranges too.
+    #[test]
+    fn a_side_whose_bars_run_out_gets_empty_ranges() {
+        let plan = SystemPlan {
+            systems: 13,
+            ka: 2,
+            kb: 2,
+            len_a: 22,
+            len_b: 26,
+        };
+        assert_eq!(plan.bars(12), (22..22, 24..26));
+        assert_eq!(plan.bars(10), (20..22, 20..22));
+        let empty = SystemPlan {
+            systems: 1,
+            ka: 1,
+            kb: 3,
+            len_a: 0,
+            len_b: 3,
+        };
+        assert_eq!(empty.bars(0), (0..0, 0..3));
     }
 }
