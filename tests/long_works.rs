@@ -230,3 +230,60 @@ fn outputs_say_when_the_search_was_seeded() {
     assert_eq!(json["search"]["kind"], "full");
     assert!(!render_text(&findings).contains("seeded search"));
 }
+
+// A passage as long as a long work is written out for its opening only (`MAX_STAFF_BARS`,
+// `MAX_STAFF_NOTES`),
+// and the exhibit says so: the long work against itself (one passage of all of it) gives an
+// exhibit of a few pages, not one page per few bars of the whole work.
+#[test]
+fn the_exhibit_writes_out_the_first_bars_of_a_long_passage() {
+    let (tunes, divisions) = tunes();
+    let events: Vec<common::Event> = tunes
+        .iter()
+        .filter(|t| t.set == "background")
+        .take(40)
+        .flat_map(|t| t.events.iter().copied())
+        .collect();
+    let dir = tempfile::tempdir().unwrap();
+    let score = dir.path().join("long.musicxml");
+    std::fs::write(&score, common::melody_xml(&events, divisions, 4, 4)).unwrap();
+    let pdf = dir.path().join("exhibit.pdf");
+    let score = score.to_str().unwrap();
+    let (code, _, stderr) = common::run_cli(&[
+        "compare",
+        score,
+        score,
+        "--max-passages",
+        "1",
+        "--pdf",
+        pdf.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{stderr}");
+    let Ok(out) = std::process::Command::new("pdftotext")
+        .arg(&pdf)
+        .arg("-")
+        .output()
+    else {
+        println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped");
+        return;
+    };
+    let text = String::from_utf8_lossy(&out.stdout);
+    let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(
+        flat.contains("only its opening is written out: at most 64 bars and 96 notes"),
+        "{flat}"
+    );
+    // One passage of 491 bars: its first 64 bars alone took 32 pages of staves.
+    let pages = text.matches('\u{c}').count();
+    let heads: Vec<String> = text
+        .split('\u{c}')
+        .map(|p| {
+            p.split_whitespace()
+                .skip(8)
+                .take(6)
+                .collect::<Vec<_>>()
+                .join(" ")
+        })
+        .collect();
+    assert!(pages < 15, "{pages} pages: {heads:#?}");
+}

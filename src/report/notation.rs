@@ -242,7 +242,19 @@ pub struct PassageView {
     pub a: StaffView,
     /// Work B.
     pub b: StaffView,
+    /// Whether a side spans more than [`MAX_STAFF_BARS`] bars or [`MAX_STAFF_NOTES`] notes,
+    /// so that only its opening is written out.
+    pub cut: bool,
 }
+
+/// Most bars of one work written out for a passage: a passage as long as a whole long work
+/// would otherwise fill hundreds of pages (a 50,000-note work against itself: 1,399 pages and
+/// 1.5 GB while writing). The whole alignment stays in the JSON record and the exports.
+pub const MAX_STAFF_BARS: usize = 64;
+
+/// Most notes of one work written out for a passage (the bar holding the last of them is
+/// shown whole): dense bars take a page for two.
+pub const MAX_STAFF_NOTES: usize = 96;
 
 /// Key signature and mode in force at `ticks`; C major when the piece states none.
 fn key_at(piece: &Piece, ticks: i64) -> (i32, KeyMode) {
@@ -414,27 +426,24 @@ pub fn passage_view(
     let (clef_a, shift_a) = place(median_a, k_a);
     let k_b = wrap_shift(shift_a - passage.transposition_semitones);
     let (clef_b, shift_b) = place(median_b, k_b);
-    let view_a = staff_view(
-        a,
-        passage.a.bar_indices,
-        &marks_a,
-        key_a,
-        shift_a,
-        clef_a,
-        labels.0,
-    );
-    let view_b = staff_view(
-        b,
-        passage.b.bar_indices,
-        &marks_b,
-        key_b,
-        shift_b,
-        clef_b,
-        labels.1,
-    );
+    // The opening of a long passage: at most MAX_STAFF_BARS bars, and no bar past the one
+    // holding its MAX_STAFF_NOTES-th note.
+    let capped = |piece: &Piece, side: &crate::compare::PassageSide| {
+        let [first, last] = side.bar_indices;
+        let [from, to] = side.note_range;
+        let by_notes = piece
+            .melody
+            .get((from + MAX_STAFF_NOTES - 1).min(to))
+            .map_or(last, |n| n.bar.max(first));
+        [first, last.min(first + MAX_STAFF_BARS - 1).min(by_notes)]
+    };
+    let (bars_a, bars_b) = (capped(a, &passage.a), capped(b, &passage.b));
+    let view_a = staff_view(a, bars_a, &marks_a, key_a, shift_a, clef_a, labels.0);
+    let view_b = staff_view(b, bars_b, &marks_b, key_b, shift_b, clef_b, labels.1);
     PassageView {
         a: view_a,
         b: view_b,
+        cut: bars_a != passage.a.bar_indices || bars_b != passage.b.bar_indices,
     }
 }
 

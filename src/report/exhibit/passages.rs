@@ -125,6 +125,14 @@ pub struct PassageContext {
     pub b_shown_key: String,
     /// Whether a piano roll is drawn instead of staves.
     pub piano_roll: bool,
+    /// Whether only the opening of a long passage is written out (at most
+    /// [`crate::report::notation::MAX_STAFF_BARS`] bars and
+    /// [`crate::report::notation::MAX_STAFF_NOTES`] notes of each work).
+    pub notation_cut: bool,
+    /// That number of bars.
+    pub notation_bars: usize,
+    /// That number of notes.
+    pub notation_notes: usize,
     /// Differences, in order.
     pub differences: Vec<DifferenceText>,
 }
@@ -203,6 +211,9 @@ pub fn passage_context(ex: &Exhibit<'_>, f: &Finding, view: &PassageView) -> Pas
         a_shown_key: view.a.shown_key.clone(),
         b_shown_key: view.b.shown_key.clone(),
         piano_roll: view.a.unstable_pitch || view.b.unstable_pitch,
+        notation_cut: view.cut,
+        notation_bars: crate::report::notation::MAX_STAFF_BARS,
+        notation_notes: crate::report::notation::MAX_STAFF_NOTES,
         differences: f
             .differences
             .iter()
