@@ -58,6 +58,18 @@ fn sha256_hex(path: &Path) -> String {
         .collect()
 }
 
+/// The PDF's text as poppler's `pdftotext` reads it (pages end with form feeds), or `None`
+/// with a notice when poppler-utils is not installed.
+fn pdf_text(pdf: &Path) -> Option<String> {
+    match Command::new("pdftotext").arg(pdf).arg("-").output() {
+        Ok(out) if out.status.success() => Some(String::from_utf8_lossy(&out.stdout).into_owned()),
+        _ => {
+            println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped");
+            None
+        }
+    }
+}
+
 #[test]
 fn two_runs_give_identical_files() {
     let one = tempfile::tempdir().unwrap();
@@ -117,14 +129,9 @@ fn pdf_text_holds_bars_hashes_cautions_and_counsel_statement() {
     let (code, _, stderr) = write_demo_exhibit(dir.path(), &[]);
     assert_eq!(code, 0, "{stderr}");
     let pdf = dir.path().join("exhibit.pdf");
-    let out = match Command::new("pdftotext").arg(&pdf).arg("-").output() {
-        Ok(out) if out.status.success() => out,
-        _ => {
-            println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped");
-            return;
-        }
+    let Some(text) = pdf_text(&pdf) else {
+        return;
     };
-    let text = String::from_utf8_lossy(&out.stdout).into_owned();
     // Bars of the demo's borrowed hook (demo/README.md): A 9–16, B 17–24.
     for needle in [
         "bars 9–16",
@@ -170,14 +177,9 @@ fn the_cover_fits_on_its_page() {
     let (code, _, stderr) = write_demo_exhibit(dir.path(), &[]);
     assert_eq!(code, 0, "{stderr}");
     let pdf = dir.path().join("exhibit.pdf");
-    let out = match Command::new("pdftotext").arg(&pdf).arg("-").output() {
-        Ok(out) if out.status.success() => out,
-        _ => {
-            println!("notice: pdftotext (poppler-utils) not found; PDF text check skipped");
-            return;
-        }
+    let Some(text) = pdf_text(&pdf) else {
+        return;
     };
-    let text = String::from_utf8_lossy(&out.stdout).into_owned();
     let pages: Vec<&str> = text.split('\u{c}').collect();
     assert!(
         pages[0].contains("Parameters of the comparison"),
