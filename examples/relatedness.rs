@@ -293,6 +293,10 @@ fn quick_main(
 
 /// Token kinds tried for retrieval.
 fn toks(seq: &collatio::features::Sequence, kind: u8) -> Vec<u16> {
+    if kind == 0 {
+        // The index's own tokens: interval and rhythm class.
+        return collatio::corpus::tokens(seq);
+    }
     seq.notes
         .iter()
         .skip(1)
@@ -307,7 +311,6 @@ fn toks(seq: &collatio::features::Sequence, kind: u8) -> Vec<u16> {
                 (i.signum() * class + 7) as u16
             };
             match kind {
-                0 => (interval * 9 + rhythm) as u16,
                 2 => coarse,
                 3 => coarse * 9 + rhythm as u16,
                 _ => interval as u16,

@@ -58,6 +58,13 @@ fn sha256_hex(path: &Path) -> String {
         .collect()
 }
 
+/// Writes the demo exhibit into `dir` and returns its text ([`pdf_text`]).
+fn demo_exhibit_text(dir: &Path) -> Option<String> {
+    let (code, _, stderr) = write_demo_exhibit(dir, &[]);
+    assert_eq!(code, 0, "{stderr}");
+    pdf_text(&dir.join("exhibit.pdf"))
+}
+
 /// The PDF's text as poppler's `pdftotext` reads it (pages end with form feeds), or `None`
 /// with a notice when poppler-utils is not installed.
 fn pdf_text(pdf: &Path) -> Option<String> {
@@ -126,10 +133,7 @@ fn json_file_is_the_printed_record() {
 #[test]
 fn pdf_text_holds_bars_hashes_cautions_and_counsel_statement() {
     let dir = tempfile::tempdir().unwrap();
-    let (code, _, stderr) = write_demo_exhibit(dir.path(), &[]);
-    assert_eq!(code, 0, "{stderr}");
-    let pdf = dir.path().join("exhibit.pdf");
-    let Some(text) = pdf_text(&pdf) else {
+    let Some(text) = demo_exhibit_text(dir.path()) else {
         return;
     };
     // Bars of the demo's borrowed hook (demo/README.md): A 9–16, B 17–24.
@@ -174,10 +178,7 @@ fn pdf_text_holds_bars_hashes_cautions_and_counsel_statement() {
 #[test]
 fn the_cover_fits_on_its_page() {
     let dir = tempfile::tempdir().unwrap();
-    let (code, _, stderr) = write_demo_exhibit(dir.path(), &[]);
-    assert_eq!(code, 0, "{stderr}");
-    let pdf = dir.path().join("exhibit.pdf");
-    let Some(text) = pdf_text(&pdf) else {
+    let Some(text) = demo_exhibit_text(dir.path()) else {
         return;
     };
     let pages: Vec<&str> = text.split('\u{c}').collect();
